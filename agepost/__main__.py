@@ -1,0 +1,5 @@
+"""Allow ``python -m agepost``."""
+
+from agepost.cli import main
+
+raise SystemExit(main())

@@ -1,0 +1,1 @@
+"""Expansion history: densities, E(a), cosmic and lookback times, distances (no I/O)."""
