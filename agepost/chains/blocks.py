@@ -54,15 +54,19 @@ class RawBlock:
         )
 
 
-def burn_and_thin(block: RawBlock, *, burn: int, thin: int) -> RawBlock:
+def burn_and_thin(block: RawBlock, *, burn: int, thin: int, last_of_each: bool = False) -> RawBlock:
     """Drop steps before ``burn`` and keep every ``thin``-th step after it.
 
-    Works on any block of a chain because it looks only at each row's step number, so
-    chunk boundaries do not matter.
+    By default the kept steps are ``burn, burn + thin, ...``. With ``last_of_each`` they
+    are ``burn + thin - 1, burn + 2 thin - 1, ...`` (the last step of each group of
+    ``thin``), the convention of emcee's own ``get_chain(discard=, thin=)``. Works on any
+    block of a chain because it looks only at each row's step number, so chunk
+    boundaries do not matter.
     """
-    if burn == 0 and thin == 1:
+    first = burn + (thin - 1 if last_of_each else 0)
+    if first == 0 and thin == 1:
         return block
-    after = block.step - burn
+    after = block.step - first
     return block.subset((after >= 0) & (after % thin == 0))
 
 

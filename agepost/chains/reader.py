@@ -11,7 +11,6 @@ import glob
 import logging
 from collections.abc import Iterator, Sequence
 from pathlib import Path
-from typing import Protocol
 
 import numpy as np
 import pandas as pd
@@ -19,6 +18,7 @@ import pandas as pd
 from agepost.chains import layouts
 from agepost.chains.blocks import RawBlock, burn_and_thin
 from agepost.chains.conventions import resolve
+from agepost.chains.layouts import ChainFile
 from agepost.chains.options import ReadOptions
 from agepost.chains.sampleset import SampleSet
 from agepost.chains.weights import pick_bookkeeping
@@ -30,18 +30,6 @@ logger = logging.getLogger(__name__)
 DEFAULT_CHUNK_ROWS = 1_000_000
 
 PathArgument = str | Path | Sequence[str | Path]
-
-
-class ChainFile(Protocol):
-    """What a layout reader offers for one opened file."""
-
-    n_walkers: int
-
-    def n_steps(self) -> int:
-        """Rows per chain (steps per walker) before burn-in."""
-
-    def blocks(self, chunk_rows: int | None) -> Iterator[RawBlock]:
-        """Rows in file order, in blocks of at most ``chunk_rows`` (None: one block)."""
 
 
 def expand_paths(paths: PathArgument) -> list[Path]:
@@ -96,7 +84,7 @@ def _file_chunks(
     n_kept = 0
     weight_total = 0.0
     for block in whole if whole is not None else chain.blocks(chunk_rows):
-        kept = burn_and_thin(block, burn=burn, thin=options.thin)
+        kept = burn_and_thin(block, burn=burn, thin=options.thin, last_of_each=chain.last_of_each)
         if kept.n_rows == 0:
             continue
         samples = block_to_samples(kept, options, chain_offset=chain_offset)

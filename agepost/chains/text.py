@@ -227,6 +227,7 @@ class TextChain:
     """One text chain file (one chain id) opened for reading."""
 
     n_walkers = 1
+    last_of_each = False
 
     def __init__(self, path: Path, options: ReadOptions) -> None:
         self.path = path
