@@ -1,0 +1,190 @@
+"""Render quantity summaries as a JSON-ready record, CSV text and LaTeX table rows.
+
+Functions here return text or dicts; files are written by the caller through
+:class:`agepost.outputs.OutputFolder`.
+
+LaTeX digits
+------------
+A value with asymmetric errors is written ``value^{+up}_{-down}`` (median and the ends of
+the equal-tailed interval). The larger error is rounded to two significant digits, and
+the value and the smaller error are rounded to the same decimal place; for example
+``13.78723 (+0.02131, -0.01984) -> 13.787^{+0.021}_{-0.020}`` and
+``4567.2 (+123, -98) -> 4570^{+120}_{-100}``. If both errors are zero the value is
+given to six significant digits with ``\\pm 0``; an interval that is not quoted (NaN)
+is written ``--``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from collections.abc import Mapping
+from typing import Any
+
+from agepost.stats.summary import QuantitySummary
+
+_INTERVAL_FIELDS = ("equal_tail_lo", "equal_tail_hi", "hpd_lo", "hpd_hi", "upper", "lower")
+
+
+def quantity_record(summary: QuantitySummary, *, unit: str) -> dict[str, Any]:
+    """JSON-ready dict of one quantity (NaN stays NaN; the JSON writer turns it into null).
+
+    Keys: ``unit, n_samples, mean, median, std, mode, intervals, ess, ess_kish,
+    ess_autocorr, mcse, rhat, warnings``; ``intervals`` maps each level key (``"0.68"``)
+    to ``{"equal_tail": [lo, hi], "hpd": [lo, hi], "upper": x, "lower": x}``.
+    """
+    return {
+        "unit": unit,
+        "n_samples": summary.n_samples,
+        "mean": summary.mean,
+        "median": summary.median,
+        "std": summary.std,
+        "mode": summary.mode,
+        "intervals": {
+            key: {
+                "equal_tail": list(interval.equal_tail),
+                "hpd": list(interval.hpd),
+                "upper": interval.upper,
+                "lower": interval.lower,
+            }
+            for key, interval in summary.intervals.items()
+        },
+        "ess": summary.ess,
+        "ess_kish": summary.ess_kish,
+        "ess_autocorr": summary.ess_autocorr,
+        "mcse": dict(summary.mcse),
+        "rhat": summary.rhat,
+        "warnings": list(summary.warnings),
+    }
+
+
+def _csv_number(value: float | None) -> str:
+    if value is None or not math.isfinite(value):
+        return ""
+    return repr(float(value))
+
+
+def summary_csv(summaries: Mapping[str, QuantitySummary], units: Mapping[str, str]) -> str:
+    """CSV text, one row per quantity, full float precision; empty cell for NaN/None.
+
+    Columns: ``quantity, unit, n_samples, mean, median, std, mode``, then for each level
+    key ``K``: ``equal_tail_lo_K, equal_tail_hi_K, hpd_lo_K, hpd_hi_K, upper_K, lower_K``,
+    then ``ess, ess_kish, ess_autocorr, rhat, mcse_mean, mcse_median, warnings`` (joined
+    with ``" | "``). Levels are the union over quantities in first-seen order.
+    """
+    level_keys: list[str] = []
+    for summary in summaries.values():
+        level_keys += [key for key in summary.intervals if key not in level_keys]
+    header = ["quantity", "unit", "n_samples", "mean", "median", "std", "mode"]
+    header += [f"{field}_{key}" for key in level_keys for field in _INTERVAL_FIELDS]
+    header += ["ess", "ess_kish", "ess_autocorr", "rhat", "mcse_mean", "mcse_median", "warnings"]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(header)
+    for name, s in summaries.items():
+        row = [name, units.get(name, ""), str(s.n_samples)]
+        row += [_csv_number(v) for v in (s.mean, s.median, s.std, s.mode)]
+        for key in level_keys:
+            interval = s.intervals.get(key)
+            ends = (
+                (*interval.equal_tail, *interval.hpd, interval.upper, interval.lower)
+                if interval is not None
+                else (math.nan,) * len(_INTERVAL_FIELDS)
+            )
+            row += [_csv_number(v) for v in ends]
+        row += [_csv_number(v) for v in (s.ess, s.ess_kish, s.ess_autocorr, s.rhat)]
+        row += [_csv_number(s.mcse.get("mean")), _csv_number(s.mcse.get("median"))]
+        row.append(" | ".join(s.warnings))
+        writer.writerow(row)
+    return buffer.getvalue()
+
+
+def _decimal_place(error: float) -> int:
+    """Decimals that keep two significant digits of ``error`` (negative: round to tens...)."""
+    decimals = 1 - math.floor(math.log10(error))
+    if round(error, decimals) >= 10 ** (2 - decimals):  # 0.0996 -> 0.100: one digit too many
+        decimals -= 1
+    return decimals
+
+
+def _fixed(value: float, decimals: int) -> str:
+    rounded = round(value, decimals) + 0.0  # + 0.0 turns -0.0 into 0.0
+    return f"{rounded:.{max(decimals, 0)}f}"
+
+
+def format_asymmetric(value: float, plus: float, minus: float) -> str:
+    """LaTeX ``value^{+plus}_{-minus}`` with digits set by the larger error (see module doc).
+
+    Examples
+    --------
+    >>> format_asymmetric(13.78723, 0.02131, 0.01984)
+    '13.787^{+0.021}_{-0.020}'
+    """
+    if not all(math.isfinite(v) for v in (value, plus, minus)):
+        return "--"
+    larger = max(abs(plus), abs(minus))
+    if larger == 0:
+        return f"{value:.6g} \\pm 0"
+    decimals = _decimal_place(larger)
+    return (
+        f"{_fixed(value, decimals)}^{{+{_fixed(abs(plus), decimals)}}}"
+        f"_{{-{_fixed(abs(minus), decimals)}}}"
+    )
+
+
+_LATEX_SPECIAL = {
+    "\\": r"\textbackslash{}",
+    "&": r"\&",
+    "%": r"\%",
+    "$": r"\$",
+    "#": r"\#",
+    "_": r"\_",
+    "{": r"\{",
+    "}": r"\}",
+}
+
+
+def _escape(text: str) -> str:
+    return "".join(_LATEX_SPECIAL.get(char, char) for char in text)
+
+
+def summary_latex(
+    summaries: Mapping[str, QuantitySummary],
+    units: Mapping[str, str],
+    labels: Mapping[str, str] | None = None,
+) -> str:
+    """A LaTeX ``tabular``: one row per quantity, one column per credible level.
+
+    Each cell is the median with asymmetric errors to the ends of that level's
+    equal-tailed interval, digits as in the module docstring. The header names the level
+    of each column and carries a unit column. ``labels`` map quantity names to LaTeX
+    (used verbatim, e.g. ``"$t_0$"``); names without a label are escaped. Units are
+    LaTeX too (e.g. ``"Gyr"``).
+    """
+    labels = labels or {}
+    level_keys: list[str] = []
+    for summary in summaries.values():
+        level_keys += [key for key in summary.intervals if key not in level_keys]
+    percent = [f"{100 * float(key):g}\\%" for key in level_keys]
+    lines = [
+        "% median and equal-tailed credible interval, digits from the larger error",
+        "\\begin{tabular}{ll" + "c" * len(level_keys) + "}",
+        "\\hline",
+        "Quantity & Unit & " + " & ".join(f"median, {p} interval" for p in percent) + " \\\\",
+        "\\hline",
+    ]
+    for name, s in summaries.items():
+        cells = []
+        for key in level_keys:
+            interval = s.intervals.get(key)
+            if interval is None:
+                cells.append("--")
+                continue
+            low, high = interval.equal_tail
+            text = format_asymmetric(s.median, high - s.median, s.median - low)
+            cells.append(text if text == "--" else f"${text}$")
+        label = labels.get(name, _escape(name))
+        lines.append(f"{label} & {units.get(name, '')} & " + " & ".join(cells) + " \\\\")
+    lines += ["\\hline", "\\end{tabular}", ""]
+    return "\n".join(lines)
