@@ -151,7 +151,10 @@ class Hdf5Chain:
                     "(samples, columns) dataset or a group of 1-D datasets"
                 )
             self.names = column_names(node, path, options)
-            self.transposed = len(self.names) != node.shape[1] and len(self.names) == node.shape[0]
+            # (columns, samples) storage: names match the first axis and it is the shorter
+            self.transposed = len(self.names) == node.shape[0] < node.shape[1] and (
+                len(self.names) != node.shape[1]
+            )
             if len(self.names) not in (node.shape[1], node.shape[0]):
                 raise ChainFormatError(
                     f"{self.source}: {len(self.names)} column names for a dataset of shape "

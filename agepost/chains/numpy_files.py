@@ -111,7 +111,7 @@ def open_npy(path: Path, options: ReadOptions) -> ArrayChain:
 def open_npz(path: Path, options: ReadOptions) -> ArrayChain:
     """A ``.npz`` archive of one 2-D array (plus names) or of 1-D columns."""
     try:
-        with np.load(path, allow_pickle=False) as archive:
+        with open(path, "rb") as handle, np.load(handle, allow_pickle=False) as archive:
             arrays = {key: archive[key] for key in archive.files}
     except ValueError as error:
         if "allow_pickle" in str(error) or "object" in str(error).lower():
