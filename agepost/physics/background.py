@@ -119,6 +119,43 @@ class Background:
         return total
 
 
+    def scaled_h2_on_grid(self, a: NDArray[np.float64]) -> NDArray[np.float64]:
+        """a^4 E(a)^2 of every sample on one shared grid ``a`` of shape (k,); returns (n, k).
+
+        Faster than :meth:`scaled_h2`: terms that are a fixed function of ``a`` times a
+        per-sample density are accumulated in place, without per-node logarithms.
+        """
+        a = np.asarray(a, dtype=float)
+        need_log = self.n_massive > 0 and self.radiation == "full"
+        evolving = self.has_dark_energy_evolution
+        ln_a = np.log(a) if (need_log or evolving) else None
+        terms = [(self.omega_cb, a), (self.omega_k, a * a)]
+        if not evolving:
+            terms.append((self.omega_de, a**4))
+        shared_neutrinos = need_log and bool(np.all(self.ln_y_today == self.ln_y_today[0]))
+        if shared_neutrinos:
+            ratio = energy_density_ratio_from_log(self.ln_y_today[0] + ln_a)
+            terms.append((self.n_massive * self.omega_nu_species, ratio))
+        total = np.empty((self.size, a.size))
+        total[:] = self.omega_radiation[:, None]
+        work = np.empty_like(total)
+        for density, shape in terms:
+            np.multiply(density[:, None], shape[None, :], out=work)
+            total += work
+        if evolving:
+            np.multiply((1.0 - 3.0 * (self.w0 + self.wa))[:, None], ln_a[None, :], out=work)
+            total_exponent = np.multiply((-3.0 * self.wa)[:, None], (1.0 - a)[None, :])
+            work += total_exponent
+            np.exp(work, out=work)
+            work *= self.omega_de[:, None]
+            total += work
+        if need_log and not shared_neutrinos:
+            ratio = energy_density_ratio_from_log(self.ln_y_today[:, None] + ln_a[None, :])
+            ratio *= (self.n_massive * self.omega_nu_species)[:, None]
+            total += ratio
+        return total
+
+
 def _as_float_array(name: str, value: ArrayLike, n: int) -> NDArray[np.float64]:
     array = np.asarray(value, dtype=float)
     if array.ndim == 0:

@@ -4,12 +4,9 @@ With a^4 E^2(a) = D(a), the integrals are (in units of 1/H0 and c/H0)
 
     t(a) = integral_0^a a' da' / sqrt(D(a')),    chi(a) = integral_a^1 da' / sqrt(D(a')).
 
-They are computed in the variable v with a = alpha v^2 + beta v, alpha = Omega_m / 4 and
-beta = sqrt(Omega_radiation,early): for matter plus radiation v is exactly the conformal
-time and both integrands are polynomials, so Gauss-Kronrod panels converge in a few
-nodes for every realistic model; curvature, dark energy and massive neutrinos only
-perturb them. Panels end at every requested redshift, so cosmic and lookback times are
-summed from panels that each meet the relative tolerance (no cancellation at low z).
+(see :mod:`agepost.physics.integrals` for how). Panels end at every requested redshift, so
+cosmic and lookback times are summed from panels that each meet the relative tolerance
+(no cancellation at low z).
 """
 
 from __future__ import annotations
@@ -23,8 +20,7 @@ from agepost.errors import ConfigError
 from agepost.exclusions import Exclusion
 from agepost.physics import constants
 from agepost.physics.background import Background
-from agepost.physics.bigbang import no_big_bang
-from agepost.physics.quadrature import integrate_panels
+from agepost.physics.integrals import panel_integrals
 
 #: Largest accepted Legendre tail of an interval, relative to its panel's integral. Chosen
 #: so that the integrals are within 1e-10 of scipy quad over the whole tested parameter box
@@ -109,7 +105,7 @@ def expansion_history(
     exclusion = background.exclusion.copy()
     for start in range(0, n, CHUNK_SIZE):
         part = slice(start, min(start + CHUNK_SIZE, n))
-        time_panels, distance_panels, codes = _panel_integrals(
+        time_panels, distance_panels, codes = panel_integrals(
             background.take(part), scale_factors, distances=distances, tail_tolerance=tail_tolerance
         )
         exclusion[part] = codes
@@ -143,53 +139,3 @@ def _lookback_from_panels(cumulative_time: NDArray) -> NDArray:
     panels = np.diff(cumulative_time, axis=1, prepend=0.0)
     from_today = np.cumsum(panels[:, ::-1], axis=1)[:, ::-1]
     return np.concatenate([from_today[:, 1:], np.zeros((panels.shape[0], 1))], axis=1)
-
-
-def _panel_integrals(
-    background: Background, scale_factors: NDArray, *, distances: bool, tail_tolerance: float
-) -> tuple[NDArray, NDArray | None, NDArray[np.int8]]:
-    """Time (and distance) integrals over [0, a_1], [a_1, a_2], ..., [a_{k-1}, 1], units 1/H0."""
-    codes = background.exclusion.copy()
-    check = codes == Exclusion.KEPT
-    codes[check & no_big_bang(background)] = Exclusion.NO_BIG_BANG
-    usable = np.flatnonzero(codes == Exclusion.KEPT)
-    n, k = background.size, scale_factors.size
-    time_panels = np.full((n, k), np.nan)
-    distance_panels = np.full((n, k), np.nan) if distances else None
-    if usable.size == 0:
-        return time_panels, distance_panels, codes
-    bg = background.take(usable)
-    alpha = bg.omega_m / 4.0
-    beta = np.sqrt(bg.omega_radiation_early)
-    beta = np.where((alpha <= 0) & (beta <= 0), 1.0, beta)
-    v_edges = _v_of_a(scale_factors[None, :], alpha[:, None], beta[:, None])
-    lower = np.concatenate([np.zeros((usable.size, 1)), v_edges[:, :-1]], axis=1)
-
-    def integrand(sample: NDArray[np.intp], v: NDArray) -> NDArray:
-        al, be = alpha[sample][:, None], beta[sample][:, None]
-        a = v * (al * v + be)
-        da_dv = 2.0 * al * v + be
-        inverse_root = da_dv / np.sqrt(bg.scaled_h2(a, index=sample))
-        if distances:
-            return np.stack([a * inverse_root, inverse_root], axis=-1)
-        return (a * inverse_root)[..., None]
-
-    required = np.ones((k, 2 if distances else 1), dtype=bool)
-    if distances:
-        required[0, 1] = False  # the distance from a = 0 to the earliest redshift is never used
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        result = integrate_panels(
-            integrand, lower, v_edges, n_integrands=required.shape[1],
-            tail_tolerance=tail_tolerance, required=required,
-        )
-    values = np.where(result.converged[:, None, None], result.values, np.nan)
-    time_panels[usable] = values[..., 0]
-    if distance_panels is not None:
-        distance_panels[usable] = values[..., 1]
-    codes[usable[~result.converged]] = Exclusion.NOT_CONVERGED
-    return time_panels, distance_panels, codes
-
-
-def _v_of_a(a: NDArray, alpha: NDArray, beta: NDArray) -> NDArray:
-    """Inverse of a = alpha v^2 + beta v on v >= 0 (stable form, alpha >= 0)."""
-    return 2.0 * a / (beta + np.sqrt(beta * beta + 4.0 * alpha * a))
