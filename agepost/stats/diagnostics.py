@@ -1,4 +1,6 @@
-"""Chain diagnostics: autocorrelation time, effective sample size, MCSE and split R-hat.
+"""Chain diagnostics: autocorrelation time, effective sample size and split R-hat.
+
+Monte Carlo standard errors built on these live in :mod:`agepost.stats.mcse`.
 
 Methods
 -------
@@ -13,13 +15,6 @@ Effective sample size
     ``ess_autocorr = sum_c n_c / tau_c`` over chains, computed on rows in chain order
     (weights not used); ``ess_kish = (sum w)^2 / sum w^2`` for the weights; the quoted
     ``ess`` is the smaller of the two (only Kish's when no chain order is given).
-Monte Carlo standard error
-    Mean: ``std / sqrt(ess)``. Quantile ``Q(p)`` (and so every interval end, taken as the
-    quantile at its cumulative weight): the method of Vehtari et al. (2021, Bayesian
-    Analysis 16, 667), section 4.3: ``S`` = effective sample size of the indicator
-    ``x <= Q(p)`` (the smaller of its autocorrelation ESS and Kish's); the 15.87 and 84.13
-    percent points ``a, b`` of Beta(S p + 1, S (1 - p) + 1) are mapped through the quantile
-    function and ``MCSE = (Q(b) - Q(a)) / 2``. No density estimate is needed.
 Split R-hat
     Rank-normalised split R-hat of Vehtari et al. (2021): each chain is cut into halves,
     all rows are replaced by normal scores of their pooled ranks,
@@ -39,7 +34,7 @@ from numpy.typing import ArrayLike, NDArray
 from scipy import special, stats
 
 from agepost.errors import InputError
-from agepost.stats.quantiles import SortedSample, kish_ess, quantiles_sorted
+from agepost.stats.quantiles import kish_ess
 
 #: Sokal window constant used for the integrated autocorrelation time.
 WINDOW_C = 5.0
@@ -49,7 +44,6 @@ RELIABLE_TAUS = 50.0
 RHAT_WARNING = 1.01
 #: Each half chain needs at least this many rows for R-hat.
 RHAT_MIN_HALF = 2
-_ONE_SIGMA = special.ndtr(-1.0)  # 0.158655...
 
 
 @dataclasses.dataclass(frozen=True)
@@ -151,47 +145,6 @@ def combined_ess(values: ArrayLike, weights: ArrayLike, chain_id: ArrayLike | No
     if chain_id is None:
         return kish
     return min(kish, autocorr_ess(values, chain_id).ess)
-
-
-def mcse_mean(std: float, ess: float) -> float:
-    """Monte Carlo standard error of a weighted mean, ``std / sqrt(ess)``."""
-    return float(std / np.sqrt(ess))
-
-
-def mcse_quantiles(
-    sample: SortedSample,
-    values: ArrayLike,
-    weights: ArrayLike,
-    chain_id: ArrayLike | None,
-    probabilities: ArrayLike,
-) -> NDArray[np.float64]:
-    """Monte Carlo standard error of ``Q(p)`` for each ``p`` (Vehtari et al. 2021, sec. 4.3).
-
-    Parameters
-    ----------
-    sample : SortedSample
-        The prepared form of ``values`` and ``weights``.
-    values, weights : (n,) arrays
-        The same samples in chain order (needed for the indicator's autocorrelation).
-    chain_id : (n,) int array or None
-        None treats rows as independent (Kish's ESS only).
-    probabilities : (k,) array in [0, 1]
-
-    Returns
-    -------
-    (k,) float in the units of ``values``.
-    """
-    x = np.asarray(values, dtype=np.float64)
-    p = np.atleast_1d(np.asarray(probabilities, dtype=np.float64))
-    at = quantiles_sorted(sample, p)
-    result = np.empty(p.size)
-    for k, (prob, value) in enumerate(zip(p, at, strict=True)):
-        ess = combined_ess((x <= value).astype(np.float64), weights, chain_id)
-        a = stats.beta.ppf(_ONE_SIGMA, ess * prob + 1, ess * (1 - prob) + 1)
-        b = stats.beta.ppf(1 - _ONE_SIGMA, ess * prob + 1, ess * (1 - prob) + 1)
-        low, high = quantiles_sorted(sample, [a, b])
-        result[k] = 0.5 * (high - low)
-    return result
 
 
 def _gelman_rubin(halves: list[NDArray[np.float64]]) -> float:

@@ -25,14 +25,22 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Sequence
+from math import nan
 
 import numpy as np
-from numpy.typing import ArrayLike
+from numpy.typing import ArrayLike, NDArray
 
 from agepost.errors import InputError
-from agepost.stats import diagnostics
-from agepost.stats.intervals import check_level, hpd_position
+from agepost.stats import diagnostics, mcse
+from agepost.stats.intervals import (
+    check_level,
+    equal_tail_sorted,
+    hpd_sorted,
+    lower_limit_sorted,
+    upper_limit_sorted,
+)
 from agepost.stats.quantiles import (
+    SortedSample,
     check_weighted,
     kish_ess,
     mode_sorted,
@@ -141,9 +149,14 @@ def summarise(
     auto = diagnostics.autocorr_ess(x, ids) if ids is not None and spread else None
     ess = min(ess_kish, auto.ess) if auto is not None else ess_kish
     rhat = diagnostics.split_rhat(x, ids) if ids is not None and spread else None
-
     notes = _diagnostic_warnings(x, ids, n_samples, spread, ess, auto, rhat)
-    intervals, probabilities = {}, {"median": 0.5}
+
+    median = float(quantiles_sorted(sample, 0.5))
+    errors = {
+        "mean": mcse.mcse_mean(std, ess),
+        "median": float(mcse.mcse_quantiles(sample, x, w, ids, [0.5])[0]),
+    }
+    intervals = {}
     for key, level in keys.items():
         if ess * (1 - level) / 2 < MIN_TAIL_ESS:
             notes.append(
@@ -151,52 +164,48 @@ def summarise(
                 f"samples lie beyond each end (at least {MIN_TAIL_ESS:g} needed); "
                 "run a longer chain"
             )
-            intervals[key] = IntervalSummary(
-                level, (np.nan, np.nan), (np.nan, np.nan), np.nan, np.nan
-            )
-            continue
-        p_hpd = hpd_position(sample, level)
-        probabilities |= {
-            f"{key}:equal_tail:lo": (1 - level) / 2,
-            f"{key}:equal_tail:hi": (1 + level) / 2,
-            f"{key}:hpd:lo": p_hpd,
-            f"{key}:hpd:hi": min(p_hpd + level, 1.0),
-            f"{key}:upper": level,
-            f"{key}:lower": 1 - level,
-        }
-        q = dict(
-            zip(probabilities, quantiles_sorted(sample, list(probabilities.values())), strict=True)
-        )
-        intervals[key] = IntervalSummary(
-            level,
-            (float(q[f"{key}:equal_tail:lo"]), float(q[f"{key}:equal_tail:hi"])),
-            (float(q[f"{key}:hpd:lo"]), float(q[f"{key}:hpd:hi"])),
-            float(q[f"{key}:upper"]),
-            float(q[f"{key}:lower"]),
-        )
-    errors = diagnostics.mcse_quantiles(sample, x, w, ids, list(probabilities.values()))
-    mcse = {"mean": diagnostics.mcse_mean(std, ess)}
-    mcse |= {name: float(err) for name, err in zip(probabilities, errors, strict=True)}
-    for key, summary in intervals.items():
-        if np.isnan(summary.upper):
-            mcse |= {f"{key}:{end}": np.nan for end in _ENDS}
+            intervals[key] = IntervalSummary(level, (nan, nan), (nan, nan), nan, nan)
+            errors |= {f"{key}:{end}": nan for end in _ENDS}
+        else:
+            intervals[key], level_errors = _level_summary(sample, x, w, ids, level, ess)
+            errors |= {f"{key}:{end}": error for end, error in level_errors.items()}
     return QuantitySummary(
         n_samples=n_samples,
         mean=mean,
-        median=float(quantiles_sorted(sample, 0.5)),
+        median=median,
         std=std,
         mode=mode_sorted(sample, n_eff=ess_kish),
         intervals=intervals,
         ess=float(ess),
         ess_kish=float(ess_kish),
         ess_autocorr=None if auto is None else float(auto.ess),
-        mcse=mcse,
+        mcse=errors,
         rhat=rhat,
         warnings=tuple(notes),
     )
 
 
 _ENDS = ("equal_tail:lo", "equal_tail:hi", "hpd:lo", "hpd:hi", "upper", "lower")
+
+
+def _level_summary(
+    sample: SortedSample,
+    x: NDArray[np.float64],
+    w: NDArray[np.float64],
+    ids: NDArray[np.int64] | None,
+    level: float,
+    ess: float,
+) -> tuple[IntervalSummary, dict[str, float]]:
+    """Intervals at one level and the MCSE of each end, keyed as in :data:`_ENDS`."""
+    low, high = equal_tail_sorted(sample, level)
+    hpd = hpd_sorted(sample, level)
+    upper, lower = upper_limit_sorted(sample, level), lower_limit_sorted(sample, level)
+    probabilities = [(1 - level) / 2, (1 + level) / 2, level, 1 - level]
+    et_low, et_high, up, down = mcse.mcse_quantiles(sample, x, w, ids, probabilities)
+    hpd_low, hpd_high = mcse.mcse_hpd(sample, x, w, ids, level=level, ess=ess)
+    errors = [et_low, et_high, hpd_low, hpd_high, up, down]
+    summary = IntervalSummary(level, (low, high), hpd, upper, lower)
+    return summary, {end: float(e) for end, e in zip(_ENDS, errors, strict=True)}
 
 
 def _diagnostic_warnings(
