@@ -34,6 +34,10 @@ def build_parser() -> argparse.ArgumentParser:
     subparsers = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     for name in COMMANDS:
         importlib.import_module(f"agepost.commands.{name}").register(subparsers)
+    for subparser in subparsers.choices.values():  # the same two flags after the command name
+        subparser.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=argparse.SUPPRESS)
+        subparser.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,
+                               help="no progress bars or notes on stderr")
     return parser
 
 
@@ -44,12 +48,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as stop:  # argparse already printed its one-line usage error
         return int(stop.code or 0)
-    logging.basicConfig(
-        level=logging.WARNING if args.quiet else logging.INFO, format="agepost: %(message)s", force=True
-    )
-    warnings.showwarning = _show_warning
+    _configure_logging(quiet=args.quiet)
     try:
-        return int(args.handler(args))
+        with warnings.catch_warnings():
+            warnings.showwarning = _show_warning
+            return int(args.handler(args))
     except AgepostError as error:
         if args.debug:
             raise
@@ -58,6 +61,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("agepost: interrupted; no partial outputs were kept", file=sys.stderr)
         return 130
+
+
+def _configure_logging(*, quiet: bool) -> None:
+    """Notes from agepost's own loggers go to stderr as ``agepost: ...`` lines."""
+    logger = logging.getLogger("agepost")
+    for handler in list(logger.handlers):
+        logger.removeHandler(handler)
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(logging.Formatter("agepost: %(message)s"))
+    logger.addHandler(handler)
+    logger.setLevel(logging.WARNING if quiet else logging.INFO)
+    logger.propagate = False
 
 
 def _show_warning(message, category, filename, lineno, file=None, line=None) -> None:  # noqa: ANN001

@@ -18,7 +18,6 @@ class Exclusion(enum.IntEnum):
     MATTER_BELOW_NEUTRINOS = 3
     NOT_CONVERGED = 4
     NON_FINITE_INPUT = 5
-    ZERO_WEIGHT = 6
 
     @property
     def description(self) -> str:
@@ -35,7 +34,6 @@ _DESCRIPTIONS = {
     "it must contain",
     Exclusion.NOT_CONVERGED: "quadrature did not reach the requested accuracy",
     Exclusion.NON_FINITE_INPUT: "a parameter is NaN or infinite in the input",
-    Exclusion.ZERO_WEIGHT: "weight is zero",
 }
 
 
