@@ -13,6 +13,7 @@ import ast
 import dataclasses
 import difflib
 from collections.abc import Callable, Collection, Mapping
+from typing import Any, cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -20,16 +21,16 @@ from numpy.typing import NDArray
 from agepost.errors import ChainFormatError
 
 #: Functions an expression may call, each of one argument.
-FUNCTIONS: dict[str, Callable[[NDArray], NDArray]] = {"sqrt": np.sqrt, "log": np.log, "exp": np.exp}
+FUNCTIONS: dict[str, Callable[..., Any]] = {"sqrt": np.sqrt, "log": np.log, "exp": np.exp}
 
-_BINARY: dict[type, Callable[[NDArray, NDArray], NDArray]] = {
+_BINARY: dict[type, Callable[..., Any]] = {
     ast.Add: np.add,
     ast.Sub: np.subtract,
     ast.Mult: np.multiply,
     ast.Div: np.true_divide,
     ast.Pow: np.power,
 }
-_UNARY: dict[type, Callable[[NDArray], NDArray]] = {ast.USub: np.negative, ast.UAdd: np.positive}
+_UNARY: dict[type, Callable[..., Any]] = {ast.USub: np.negative, ast.UAdd: np.positive}
 
 
 @dataclasses.dataclass(frozen=True)
@@ -118,7 +119,7 @@ def _check(node: ast.AST, text: str, where: str, columns: list[str]) -> None:
 def _evaluate(node: ast.AST, columns: Mapping[str, NDArray]) -> NDArray | float:
     """Value of a checked node."""
     if isinstance(node, ast.Constant):
-        return float(node.value)
+        return float(cast(float, node.value))
     if isinstance(node, ast.Name):
         return np.asarray(columns[node.id], dtype=float)
     if isinstance(node, ast.BinOp):

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import glob
 import logging
+import warnings
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
@@ -17,6 +18,7 @@ import pandas as pd
 
 from agepost.chains import layouts
 from agepost.chains.blocks import RawBlock, burn_and_thin
+from agepost.chains.checks import ChainWarning
 from agepost.chains.conventions import resolve
 from agepost.chains.layouts import ChainFile
 from agepost.chains.options import ReadOptions
@@ -87,7 +89,12 @@ def _file_chunks(
         kept = burn_and_thin(block, burn=burn, thin=options.thin, last_of_each=chain.last_of_each)
         if kept.n_rows == 0:
             continue
-        samples = block_to_samples(kept, options, chain_offset=chain_offset)
+        if n_kept == 0:
+            samples = block_to_samples(kept, options, chain_offset=chain_offset)
+        else:  # convention warnings once per file, from its first block
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", ChainWarning)
+                samples = block_to_samples(kept, options, chain_offset=chain_offset)
         n_kept += samples.n_samples
         weight_total += float(samples.weights.sum())
         yield samples

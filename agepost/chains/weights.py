@@ -59,44 +59,58 @@ def pick_bookkeeping(
     rows: NDArray | None = None,
 ) -> Bookkeeping:
     """Weights (default all ones) and the log-posterior column (default none)."""
-    recognition = []
-    used = set()
-    weights = np.ones(n_rows)
+    weights, weight_origin, weight_column = _weights(columns, options, n_rows, source, rows)
+    log_posterior, log_origin, log_column = _log_posterior(columns, options, source)
+    recognition = [("weight", weight_origin)]
+    if log_origin is not None:
+        recognition.append(("log_posterior", log_origin))
+    used = frozenset(c for c in (weight_column, log_column) if c is not None)
+    return Bookkeeping(weights, log_posterior, tuple(recognition), used)
+
+
+def _weights(
+    columns: Mapping[str, NDArray],
+    options: ReadOptions,
+    n_rows: int,
+    source: str,
+    rows: NDArray | None,
+) -> tuple[NDArray, str, str | None]:
+    """Checked weights, where they came from, and the column used."""
     if options.log_weight_column is not None:
         name = options.log_weight_column
         _require(name, columns, option="log_weight_column", source=source)
         log_w = np.asarray(columns[name], dtype=float)
         _check_finite(log_w, name, source, rows)
         weights = np.exp(log_w - np.max(log_w)) if n_rows else log_w
-        recognition.append(("weight", f"exp(column {name} - its maximum)"))
-        used.add(name)
-    else:
-        name = options.weight_column or next((a for a in WEIGHT_ALIASES if a in columns), None)
-        if options.weight_column is not None:
-            _require(name, columns, option="weight_column", source=source)
-        if name is not None:
-            weights = np.asarray(columns[name], dtype=float)
-            recognition.append(("weight", f"column {name}"))
-            used.add(name)
-        else:
-            recognition.append(("weight", "absent: every row weighs 1"))
+        return weights, f"exp(column {name} - its maximum)", name
+    if options.weight_column is not None:
+        _require(options.weight_column, columns, option="weight_column", source=source)
+    found = options.weight_column or next((a for a in WEIGHT_ALIASES if a in columns), None)
+    if found is None:
+        return np.ones(n_rows), "absent: every row weighs 1", None
+    name = found
+    weights = np.asarray(columns[name], dtype=float)
     check_weights(weights, column=name, source=source, rows=rows)
+    return weights, f"column {name}", name
 
-    log_posterior = None
+
+def _log_posterior(
+    columns: Mapping[str, NDArray], options: ReadOptions, source: str
+) -> tuple[NDArray | None, str | None, str | None]:
+    """The log-posterior-like column (negated if it holds minus the log-posterior)."""
     name = options.log_posterior_column
     kind = options.log_posterior_kind
     if name is None:
         name = next((a for a in LOG_POSTERIOR_ALIASES if a in columns), None)
-        kind = LOG_POSTERIOR_ALIASES.get(name or "", kind)
+        if name is None:
+            return None, None, None
+        kind = LOG_POSTERIOR_ALIASES[name]
     else:
         _require(name, columns, option="log_posterior_column", source=source)
-    if name is not None:
-        values = np.asarray(columns[name], dtype=float)
-        log_posterior = -values if kind == "minus_log_posterior" else values.copy()
-        sign = "minus " if kind == "minus_log_posterior" else ""
-        recognition.append(("log_posterior", f"{sign}column {name} ({kind.replace('_', ' ')})"))
-        used.add(name)
-    return Bookkeeping(weights, log_posterior, tuple(recognition), frozenset(used))
+    values = np.asarray(columns[name], dtype=float)
+    if kind == "minus_log_posterior":
+        return -values, f"minus column {name} (minus log posterior)", name
+    return values.copy(), f"column {name} ({kind.replace('_', ' ')})", name
 
 
 def _check_finite(values: NDArray, column: str | None, source: str, rows: NDArray | None) -> None:

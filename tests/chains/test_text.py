@@ -9,6 +9,7 @@ import pandas as pd
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
+from agepost.chains.checks import ChainWarning
 from agepost.chains.options import ReadOptions
 from agepost.chains.reader import iter_chain_chunks, read_chains, recognition_table
 from agepost.errors import ChainFormatError
@@ -191,3 +192,11 @@ def test_missing_file_and_empty_glob(tmp_path):
         read_chains(tmp_path / "absent.txt")
     with pytest.raises(ChainFormatError, match="matches no file"):
         read_chains(str(tmp_path / "*.txt"))
+
+
+def test_convention_warning_once_per_file_when_streaming(tmp_path):
+    path = _write(tmp_path / "c.txt", "H0 Omega_m\n" + "0.70 0.3\n" * 10)
+    with pytest.warns(ChainWarning) as record:
+        chunks = list(iter_chain_chunks(path, chunk_rows=2))
+    assert len(chunks) == 5
+    assert len([w for w in record if issubclass(w.category, ChainWarning)]) == 1
