@@ -1,4 +1,4 @@
-"""Weighted quantiles, mean, standard deviation and mode of one set of samples.
+"""Weighted quantiles, mean, standard deviation and Kish ESS of one set of samples.
 
 Interpolation rule (the only one used anywhere in agepost)
 -----------------------------------------------------------
@@ -21,12 +21,8 @@ import dataclasses
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.ndimage import gaussian_filter1d
 
 from agepost.errors import ComputationError, InputError
-
-#: Bins of the histogram the mode estimate smooths.
-MODE_GRID_BINS = 2048
 
 
 @dataclasses.dataclass(frozen=True)
@@ -173,33 +169,25 @@ def kish_ess(weights: ArrayLike) -> float:
     return float(scaled.sum() ** 2 / np.sum(scaled**2))
 
 
-def weighted_mode(values: ArrayLike, weights: ArrayLike | None = None) -> float:
-    """Mode of a smoothed weighted histogram (a Gaussian kernel density estimate).
+def weighted_quantile_columns(
+    samples: ArrayLike, probabilities: ArrayLike, weights: ArrayLike | None = None
+) -> NDArray[np.float64]:
+    """Quantiles of each column of a sample matrix (for bands over a grid).
 
-    The samples are binned into :data:`MODE_GRID_BINS` bins spanning their range, the
-    histogram is smoothed with a Gaussian kernel of Silverman's bandwidth
-    ``0.9 min(std, IQR/1.34) n_eff^(-1/5)`` (``n_eff`` = Kish's effective sample size of
-    the rows), and the centre of the highest bin is returned. Its resolution is the bin
-    width, ``range / 2048``. Samples with zero spread return their common value.
+    Parameters
+    ----------
+    samples : (n, k) array
+        Finite values; each column is summarised on its own with the shared weights.
+    probabilities : (m,) array in [0, 1]
+    weights : (n,) array or None
+
+    Returns
+    -------
+    (m, k) array: row ``i`` holds quantile ``probabilities[i]`` of every column.
     """
-    x, w = check_weighted(values, weights)
-    return mode_sorted(sort_weighted(x, w), n_eff=kish_ess(w))
-
-
-def mode_sorted(sample: SortedSample, *, n_eff: float) -> float:
-    """:func:`weighted_mode` of a prepared sample; ``n_eff`` sets the kernel bandwidth."""
-    low, high = float(sample.values[0]), float(sample.values[-1])
-    if high == low:
-        return low
-    mean = float(np.dot(sample.weights, sample.values))
-    std = float(np.sqrt(np.dot(sample.weights, (sample.values - mean) ** 2)))
-    q25, q75 = quantiles_sorted(sample, [0.25, 0.75])
-    spread = min(std, (q75 - q25) / 1.34) or std
-    bandwidth = 0.9 * spread * n_eff**-0.2
-    counts, edges = np.histogram(
-        sample.values, bins=MODE_GRID_BINS, range=(low, high), weights=sample.weights
-    )
-    sigma_bins = bandwidth / (edges[1] - edges[0])
-    smoothed = gaussian_filter1d(counts, sigma_bins, mode="constant")
-    peak = int(np.argmax(smoothed))
-    return float(0.5 * (edges[peak] + edges[peak + 1]))
+    matrix = np.asarray(samples, dtype=np.float64)
+    if matrix.ndim != 2:
+        raise InputError(f"samples must be a (n, k) matrix, got shape {matrix.shape}")
+    p = np.atleast_1d(np.asarray(probabilities, dtype=np.float64))
+    columns = [weighted_quantile(matrix[:, j], p, weights) for j in range(matrix.shape[1])]
+    return np.stack(columns, axis=1) if columns else np.empty((p.size, 0))

@@ -32,6 +32,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from agepost.errors import InputError
 from agepost.stats import diagnostics, mcse
+from agepost.stats.density import mode_sorted
 from agepost.stats.intervals import (
     check_level,
     equal_tail_sorted,
@@ -43,7 +44,6 @@ from agepost.stats.quantiles import (
     SortedSample,
     check_weighted,
     kish_ess,
-    mode_sorted,
     quantiles_sorted,
     sort_weighted,
     weighted_mean_std,

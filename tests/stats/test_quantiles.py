@@ -14,7 +14,6 @@ from agepost.stats.quantiles import (
     kish_ess,
     sort_weighted,
     weighted_mean_std,
-    weighted_mode,
     weighted_quantile,
 )
 
@@ -78,31 +77,13 @@ def test_quantiles_with_importance_weights(target, proposal):
     assert np.all(np.abs(got - target.ppf(PROBABILITIES)) < tolerance)
 
 
-def test_mean_std_and_mode_of_gamma():
-    # Gamma(a, scale s): mean a s, std sqrt(a) s, mode (a - 1) s (textbook).
+def test_mean_and_std_of_gamma():
+    # Gamma(a, scale s): mean a s, std sqrt(a) s (textbook).
     a, s, n = 4.0, 0.5, 400_000
     x = stats.gamma(a=a, scale=s).rvs(size=n, random_state=np.random.default_rng(4))
     mean, std = weighted_mean_std(x)
     assert abs(mean - a * s) < 5 * np.sqrt(a) * s / np.sqrt(n)
     assert_allclose(std, np.sqrt(a) * s, rtol=0.01)  # std error of std ~ 0.2 % here
-    # The kernel mode is biased by the smoothing; 0.05 is ~3 % of the mode, far below the std.
-    assert abs(weighted_mode(x) - (a - 1) * s) < 0.05
-
-
-def test_mode_of_weighted_sample_follows_weights():
-    # Uniform draws reweighted by a normal density have that normal's mode (importance
-    # sampling). Tolerance: 4 standard deviations of a Gaussian-kernel mode estimate,
-    # Var = f(m) R(K') / (n h^3 f''(m)^2) with R(K') = 1 / (4 sqrt(pi)) (Parzen 1962),
-    # at the bandwidth the module documents.
-    sigma = 0.7
-    x = np.random.default_rng(5).uniform(-5, 5, size=200_000)
-    w = stats.norm(loc=1.2, scale=sigma).pdf(x)
-    n_eff = kish_ess(w)
-    bandwidth = 0.9 * sigma * n_eff**-0.2
-    peak = stats.norm.pdf(0, scale=sigma)
-    curvature = peak / sigma**2
-    sd = np.sqrt(peak / (4 * np.sqrt(np.pi)) / (n_eff * bandwidth**3 * curvature**2))
-    assert abs(weighted_mode(x, w) - 1.2) < 4 * sd
 
 
 def test_kish_formula():
