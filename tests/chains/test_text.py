@@ -200,3 +200,17 @@ def test_convention_warning_once_per_file_when_streaming(tmp_path):
         chunks = list(iter_chain_chunks(path, chunk_rows=2))
     assert len(chunks) == 5
     assert len([w for w in record if issubclass(w.category, ChainWarning)]) == 1
+
+
+def test_log_weights_are_exponentiated_relative_to_their_maximum(tmp_path):
+    path = _write(tmp_path / "c.txt", "lw H0 Omega_m\n0.0 70 0.3\n-0.6931471805599453 71 0.3\n")
+    samples = read_chains(path, ReadOptions(log_weight_column="lw"))
+    # hand calculation: exp(0 - 0) = 1, exp(-ln 2 - 0) = 0.5
+    assert_allclose(samples.weights, [1.0, 0.5], rtol=1e-15)
+
+
+def test_names_option_overrides_a_header_row(tmp_path):
+    path = _write(tmp_path / "c.txt", "a b c d\n" + _body())
+    _check_expected(read_chains(path, ReadOptions(names=tuple(NAMES))))
+    with pytest.raises(ChainFormatError, match="gives 3 names but line 2 has 4 fields"):
+        read_chains(path, ReadOptions(names=("weight", "H0", "Omega_m")))
