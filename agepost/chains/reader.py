@@ -83,6 +83,14 @@ def _file_chunks(
     chain = layouts.open_chain_file(path, options)
     whole = list(chain.blocks(None)) if chunk_rows is None else None
     burn = _burn_rows(chain, whole, options)
+    logger.info(
+        "%s: %s, %d chain(s), burn-in %d rows per chain, thin %d",
+        path,
+        type(chain).__name__,
+        chain.n_walkers,
+        burn,
+        options.thin,
+    )
     n_kept = 0
     weight_total = 0.0
     for block in whole if whole is not None else chain.blocks(chunk_rows):
