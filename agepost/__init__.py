@@ -1,4 +1,7 @@
-"""agepost: posterior ages and lookback times of the universe from parameter samples."""
+"""agepost: posterior ages and lookback times of the universe from parameter samples.
+
+The notebook API lives in :mod:`agepost.api` and is re-exported here.
+"""
 
 from importlib.metadata import PackageNotFoundError, version
 
@@ -7,4 +10,33 @@ try:
 except PackageNotFoundError:  # running from a source tree that is not installed
     __version__ = "0.0.0"
 
-__all__ = ["__version__"]
+from agepost.api import (  # noqa: E402
+    DerivedSamples,
+    ExpansionHistory,
+    ModelSettings,
+    RunResult,
+    SampleSet,
+    age_gyr,
+    derive,
+    expansion_history,
+    lookback_gyr,
+    read_chains,
+    summarise_chains,
+    summary_table,
+)
+
+__all__ = [
+    "DerivedSamples",
+    "ExpansionHistory",
+    "ModelSettings",
+    "RunResult",
+    "SampleSet",
+    "__version__",
+    "age_gyr",
+    "derive",
+    "expansion_history",
+    "lookback_gyr",
+    "read_chains",
+    "summarise_chains",
+    "summary_table",
+]
