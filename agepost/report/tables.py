@@ -113,6 +113,24 @@ def _fixed(value: float, decimals: int) -> str:
     return f"{rounded:.{max(decimals, 0)}f}"
 
 
+def round_to_error(value: float | None, error: float | None) -> str:
+    """``value`` as text, rounded to the decimal place that leaves ``error`` two digits.
+
+    Without a usable error (None, zero or not finite) the value gets six significant
+    digits; a missing value gives ``"--"``.
+
+    Examples
+    --------
+    >>> round_to_error(13.78723, 0.0213)
+    '13.787'
+    """
+    if value is None or not math.isfinite(value):
+        return "--"
+    if error is None or not math.isfinite(error) or error == 0:
+        return f"{value:.6g}"
+    return _fixed(value, _decimal_place(abs(error)))
+
+
 def format_asymmetric(value: float, plus: float, minus: float) -> str:
     """LaTeX ``value^{+plus}_{-minus}`` with digits set by the larger error (see module doc).
 

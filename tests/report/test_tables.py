@@ -11,7 +11,13 @@ import numpy as np
 import pytest
 
 from agepost.outputs import dumps_json
-from agepost.report.tables import format_asymmetric, quantity_record, summary_csv, summary_latex
+from agepost.report.tables import (
+    format_asymmetric,
+    quantity_record,
+    round_to_error,
+    summary_csv,
+    summary_latex,
+)
 from agepost.stats.summary import summarise
 
 
@@ -105,3 +111,19 @@ def test_latex_table(summaries):
     tiny = next(line for line in lines if line.startswith("tiny"))
     assert tiny.rstrip(" \\").endswith("--")
     assert text.count("\\\\") == 1 + len(summaries)
+
+
+@pytest.mark.parametrize(
+    ("value", "error", "expected"),
+    [
+        (13.78723, 0.0213, "13.787"),
+        (13.78723, 0.0996, "13.79"),  # error rounds up to 0.10
+        (4567.2, 123.0, "4570"),
+        (2.5, None, "2.5"),
+        (2.5, 0.0, "2.5"),
+        (math.nan, 0.1, "--"),
+        (None, 0.1, "--"),
+    ],
+)
+def test_round_to_error(value, error, expected):
+    assert round_to_error(value, error) == expected
