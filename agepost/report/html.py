@@ -69,7 +69,7 @@ def _finite(value: Any) -> bool:
     return isinstance(value, int | float) and math.isfinite(value)
 
 
-def _asymmetric(median: float, ends: Sequence[Any]) -> str:
+def _asymmetric(median: Any, ends: Sequence[Any]) -> str:
     if not (_finite(median) and all(_finite(v) for v in ends)):
         return _DASH
     low, high = ends
@@ -89,8 +89,10 @@ def _level_keys(summary: Mapping[str, Mapping[str, Any]]) -> list[str]:
 def _summary_row(label: str, record: Mapping[str, Any], keys: Sequence[str]) -> str:
     """One quantity: every number rounded so the first level's larger error has two digits."""
     intervals = record.get("intervals", {})
-    median = record.get("median")
-    first = intervals.get(keys[0], {}).get("equal_tail", [None, None]) if keys else [None, None]
+    median: Any = record.get("median")
+    first: list[Any] = (
+        intervals.get(keys[0], {}).get("equal_tail", [None, None]) if keys else [None, None]
+    )
     error = (
         max(first[1] - median, median - first[0]) if all(map(_finite, [median, *first])) else None
     )

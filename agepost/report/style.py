@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import contextlib
 from collections.abc import Iterator
+from typing import Any
 
 import matplotlib as mpl
 
@@ -24,7 +25,7 @@ SECOND = "#D55E00"
 #: Raster resolution of PNG output, dots per inch.
 PNG_DPI = 300
 
-_RC = {
+_RC: dict[str, Any] = {
     "font.size": 7.0,
     "axes.labelsize": 7.5,
     "axes.titlesize": 7.5,
@@ -52,7 +53,8 @@ _RC = {
 @contextlib.contextmanager
 def house_style() -> Iterator[None]:
     """Apply the house matplotlib settings inside a ``with`` block (global state restored)."""
-    with mpl.rc_context(_RC):
+    # matplotlib types rc keys as literals; a plain dict of known keys is what it expects
+    with mpl.rc_context(_RC):  # type: ignore[arg-type]
         yield
 
 
