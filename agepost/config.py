@@ -89,11 +89,11 @@ def settings_from_config(path: str | Path) -> RunSettings:
     _check_keys(document, SECTIONS, f"{path}")
     chain = dict(document.get("chain", {}))
     files = chain.pop("files", None)
+    read = ReadOptions.from_table(chain, where=f"{path} [chain]")
     if isinstance(files, str):
         files = [files]
     if not files or not all(isinstance(f, str) for f in files):
         raise ConfigError(f"{path} [chain]: give the chain file(s) as files = [\"path\", ...]")
-    read = ReadOptions.from_table(chain, where=f"{path} [chain]")
     if read.names_file is not None and not Path(read.names_file).is_absolute():
         read = dataclasses.replace(read, names_file=base / read.names_file)
     model = model_from_table(document.get("model", {}), where=f"{path} [model]")
