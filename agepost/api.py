@@ -43,8 +43,18 @@ def expansion_history(
     Samples without a big bang or with invalid values are NaN with a reason code in
     ``exclusion``.
     """
-    background = make_background(h0=h0, omega_m=omega_m, omega_k=omega_k, w0=w0, wa=wa, m_nu=m_nu,
-                                 n_eff=n_eff, t_cmb=t_cmb, n_massive=n_massive, radiation=radiation)
+    background = make_background(
+        h0=h0,
+        omega_m=omega_m,
+        omega_k=omega_k,
+        w0=w0,
+        wa=wa,
+        m_nu=m_nu,
+        n_eff=n_eff,
+        t_cmb=t_cmb,
+        n_massive=n_massive,
+        radiation=radiation,
+    )
     return _history(background, redshifts, distances=distances)
 
 
@@ -82,7 +92,12 @@ def summary_table(result: RunResult) -> pd.DataFrame:
     """One row per quantity and parameter: median, mean, std and every interval end."""
     rows = {}
     for name, summary in (result.quantities | result.parameters).items():
-        row = {"mean": summary.mean, "median": summary.median, "std": summary.std, "ess": summary.ess}
+        row = {
+            "mean": summary.mean,
+            "median": summary.median,
+            "std": summary.std,
+            "ess": summary.ess,
+        }
         for key, interval in summary.intervals.items():
             row[f"equal_tail_{key}_lo"], row[f"equal_tail_{key}_hi"] = interval.equal_tail
             row[f"hpd_{key}_lo"], row[f"hpd_{key}_hi"] = interval.hpd

@@ -35,9 +35,15 @@ def build_parser() -> argparse.ArgumentParser:
     for name in COMMANDS:
         importlib.import_module(f"agepost.commands.{name}").register(subparsers)
     for subparser in subparsers.choices.values():  # the same two flags after the command name
-        subparser.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help=argparse.SUPPRESS)
-        subparser.add_argument("--quiet", action="store_true", default=argparse.SUPPRESS,
-                               help="no progress bars or notes on stderr")
+        subparser.add_argument(
+            "--debug", action="store_true", default=argparse.SUPPRESS, help=argparse.SUPPRESS
+        )
+        subparser.add_argument(
+            "--quiet",
+            action="store_true",
+            default=argparse.SUPPRESS,
+            help="no progress bars or notes on stderr",
+        )
     return parser
 
 

@@ -93,7 +93,7 @@ def settings_from_config(path: str | Path) -> RunSettings:
     if isinstance(files, str):
         files = [files]
     if not files or not all(isinstance(f, str) for f in files):
-        raise ConfigError(f"{path} [chain]: give the chain file(s) as files = [\"path\", ...]")
+        raise ConfigError(f'{path} [chain]: give the chain file(s) as files = ["path", ...]')
     if read.names_file is not None and not Path(read.names_file).is_absolute():
         read = dataclasses.replace(read, names_file=base / read.names_file)
     model = model_from_table(document.get("model", {}), where=f"{path} [model]")
@@ -104,11 +104,16 @@ def settings_from_config(path: str | Path) -> RunSettings:
     figures = tuple(output.get("figures", FIGURES))
     unknown = [f for f in figures if f not in FIGURES]
     if unknown:
-        raise ConfigError(f"{path} [output]: unknown figure {unknown[0]!r}; available: {', '.join(FIGURES)}")
+        raise ConfigError(
+            f"{path} [output]: unknown figure {unknown[0]!r}; available: {', '.join(FIGURES)}"
+        )
     folder = Path(output.get("folder", "agepost-output"))
-    sources = {"chain_files": "config", "redshifts": "config" if "redshifts" in quantities else "default",
-               "levels": "config" if "levels" in quantities else "default",
-               "output": "config" if "folder" in output else "default"}
+    sources = {
+        "chain_files": "config",
+        "redshifts": "config" if "redshifts" in quantities else "default",
+        "levels": "config" if "levels" in quantities else "default",
+        "output": "config" if "folder" in output else "default",
+    }
     return RunSettings(
         chain_files=tuple(os.path.normpath(base / f) for f in files),
         read=read,
@@ -145,7 +150,9 @@ def _redshifts(values: Any, *, where: str) -> tuple[float, ...]:
     if not isinstance(values, list | tuple):
         raise ConfigError(f"{where}: redshifts must be a list of numbers, e.g. [0.5, 1, 2]")
     try:
-        return tuple(float(z) for z in validate_redshifts([_number(v, f"{where} redshifts") for v in values]))
+        return tuple(
+            float(z) for z in validate_redshifts([_number(v, f"{where} redshifts") for v in values])
+        )
     except ConfigError as error:
         raise ConfigError(f"{where}: {error.message}") from None
 

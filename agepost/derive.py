@@ -12,7 +12,12 @@ from numpy.typing import NDArray
 from agepost.chains.sampleset import CANONICAL_PARAMETERS, SampleSet
 from agepost.errors import ConfigError
 from agepost.exclusions import Exclusion
-from agepost.physics.background import DEFAULT_RADIATION, DEFAULTS, RADIATION_MODELS, make_background
+from agepost.physics.background import (
+    DEFAULT_RADIATION,
+    DEFAULTS,
+    RADIATION_MODELS,
+    make_background,
+)
 from agepost.physics.times import expansion_history, validate_redshifts
 
 #: Rows derived together by :func:`derive`; keeps the working memory near 100 MB.
@@ -36,7 +41,8 @@ class ModelSettings:
     def __post_init__(self) -> None:
         if self.radiation not in RADIATION_MODELS:
             raise ConfigError(
-                f"radiation model {self.radiation!r} is unknown; use one of {', '.join(RADIATION_MODELS)}"
+                f"radiation model {self.radiation!r} is unknown; "
+                f"use one of {', '.join(RADIATION_MODELS)}"
             )
         if not np.isfinite(self.t_cmb) or self.t_cmb < 0:
             raise ConfigError(f"t_cmb = {self.t_cmb} K is not allowed; give a temperature >= 0 K")
@@ -81,7 +87,9 @@ class DerivedSamples:
         return self.exclusion == Exclusion.KEPT
 
 
-def parameter_arrays(samples: SampleSet, model: ModelSettings) -> tuple[dict[str, NDArray], dict[str, float]]:
+def parameter_arrays(
+    samples: SampleSet, model: ModelSettings
+) -> tuple[dict[str, NDArray], dict[str, float]]:
     """Keyword arrays for :func:`make_background` and the defaults that had to be filled."""
     arrays: dict[str, NDArray] = {}
     filled: dict[str, float] = {}
@@ -99,13 +107,18 @@ def parameter_arrays(samples: SampleSet, model: ModelSettings) -> tuple[dict[str
     return arrays, filled
 
 
-def derive(samples: SampleSet, redshifts: Iterable[float] = (), *, model: ModelSettings | None = None) -> DerivedSamples:
+def derive(
+    samples: SampleSet, redshifts: Iterable[float] = (), *, model: ModelSettings | None = None
+) -> DerivedSamples:
     """Age today, lookback and cosmic times at ``redshifts`` for every sample (Gyr)."""
     return _concatenate(list(derive_chunks(_row_chunks(samples), redshifts, model=model)))
 
 
 def derive_chunks(
-    chunks: Iterable[SampleSet], redshifts: Iterable[float] = (), *, model: ModelSettings | None = None
+    chunks: Iterable[SampleSet],
+    redshifts: Iterable[float] = (),
+    *,
+    model: ModelSettings | None = None,
 ) -> Iterator[DerivedSamples]:
     """Derive chunk by chunk, for chains read in pieces; memory is bounded by the chunk."""
     model = model or ModelSettings()

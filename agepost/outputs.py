@@ -41,7 +41,8 @@ class OutputFolder:
         taken = [name for name in names if (self.root / name).exists()]
         if taken:
             raise OutputExistsError(
-                f"{self.root / taken[0]} already exists; pass --force to replace it or choose a new --out folder"
+                f"{self.root / taken[0]} already exists; pass --force to replace it "
+                "or choose a new --out folder"
             )
 
     @contextlib.contextmanager
@@ -50,7 +51,9 @@ class OutputFolder:
         self.check_free(name)
         self.root.mkdir(parents=True, exist_ok=True)
         target = self.root / name
-        handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=self.root)
+        handle, temporary = tempfile.mkstemp(
+            prefix=f".{target.name}.", suffix=".part", dir=self.root
+        )
         os.close(handle)
         try:
             yield Path(temporary)

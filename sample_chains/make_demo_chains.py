@@ -44,7 +44,9 @@ def covariance(spec: dict) -> np.ndarray:
     return corr * np.outer(sd, sd)
 
 
-def metropolis(mean: np.ndarray, cov: np.ndarray, n_steps: int, rng: np.random.Generator) -> np.ndarray:
+def metropolis(
+    mean: np.ndarray, cov: np.ndarray, n_steps: int, rng: np.random.Generator
+) -> np.ndarray:
     """A random-walk Metropolis chain on a Gaussian target, started off the peak."""
     precision = np.linalg.inv(cov)
     step = np.linalg.cholesky(cov) * (2.38 / np.sqrt(mean.size))

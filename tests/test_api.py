@@ -19,7 +19,9 @@ def test_age_and_lookback_shapes(capsys):
 
 
 def test_summarise_chains_on_demo(capsys):
-    result = agepost.summarise_chains("sample_chains/lantern_lcdm_*.txt", [1.0], weight_column="weight")
+    result = agepost.summarise_chains(
+        "sample_chains/lantern_lcdm_*.txt", [1.0], weight_column="weight"
+    )
     table = agepost.summary_table(result)
     assert {"age", "lookback_z1", "H0", "Omega_m"} <= set(table.index)
     assert np.all(table["equal_tail_0.68_lo"] < table["median"])

@@ -15,7 +15,9 @@ def write(tmp_path, text):
 
 
 def test_paths_are_relative_to_the_config(tmp_path):
-    settings = settings_from_config(write(tmp_path, '[chain]\nfiles = ["x/*.txt"]\n[output]\nfolder = "o"\n'))
+    settings = settings_from_config(
+        write(tmp_path, '[chain]\nfiles = ["x/*.txt"]\n[output]\nfolder = "o"\n')
+    )
     assert settings.chain_files == (str(tmp_path / "x" / "*.txt"),)
     assert settings.output == tmp_path / "o"
     assert settings.levels == (0.68, 0.95) and settings.sources["levels"] == "default"

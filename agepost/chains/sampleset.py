@@ -86,7 +86,9 @@ class SampleSet:
             return self.parameters[name].to_numpy(dtype=float)
         if name in self.fixed:
             return np.full(self.n_samples, float(self.fixed[name]))
-        raise ChainFormatError(f"{self.source or 'chain'}: parameter {name!r} is neither a column nor fixed")
+        raise ChainFormatError(
+            f"{self.source or 'chain'}: parameter {name!r} is neither a column nor fixed"
+        )
 
     def has(self, name: str) -> bool:
         """True when ``name`` is a column or a fixed value."""

@@ -20,19 +20,52 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description="Age today, Hubble time, and lookback and cosmic times at chosen redshifts "
         "for one set of parameters (Gyr).",
     )
-    parser.add_argument("--H0", dest="h0", type=finite_float, required=True, metavar="KM_S_MPC",
-                        help="Hubble constant in km/s/Mpc")
-    parser.add_argument("--omega-m", type=finite_float, required=True,
-                        help="matter density today, massive neutrinos included")
-    parser.add_argument("--omega-k", type=finite_float, default=DEFAULTS["omega_k"], help="curvature density (default 0)")
-    parser.add_argument("--w0", type=finite_float, default=DEFAULTS["w0"], help="dark energy w today (default -1)")
-    parser.add_argument("--wa", type=finite_float, default=DEFAULTS["wa"], help="dark energy w evolution (default 0)")
-    parser.add_argument("--m-nu", type=finite_float, default=DEFAULTS["m_nu"], metavar="EV",
-                        help=f"sum of neutrino masses in eV (default {DEFAULTS['m_nu']})")
-    parser.add_argument("--n-eff", type=finite_float, default=DEFAULTS["n_eff"],
-                        help=f"effective number of neutrino species (default {DEFAULTS['n_eff']})")
+    parser.add_argument(
+        "--H0",
+        dest="h0",
+        type=finite_float,
+        required=True,
+        metavar="KM_S_MPC",
+        help="Hubble constant in km/s/Mpc",
+    )
+    parser.add_argument(
+        "--omega-m",
+        type=finite_float,
+        required=True,
+        help="matter density today, massive neutrinos included",
+    )
+    parser.add_argument(
+        "--omega-k",
+        type=finite_float,
+        default=DEFAULTS["omega_k"],
+        help="curvature density (default 0)",
+    )
+    parser.add_argument(
+        "--w0", type=finite_float, default=DEFAULTS["w0"], help="dark energy w today (default -1)"
+    )
+    parser.add_argument(
+        "--wa",
+        type=finite_float,
+        default=DEFAULTS["wa"],
+        help="dark energy w evolution (default 0)",
+    )
+    parser.add_argument(
+        "--m-nu",
+        type=finite_float,
+        default=DEFAULTS["m_nu"],
+        metavar="EV",
+        help=f"sum of neutrino masses in eV (default {DEFAULTS['m_nu']})",
+    )
+    parser.add_argument(
+        "--n-eff",
+        type=finite_float,
+        default=DEFAULTS["n_eff"],
+        help=f"effective number of neutrino species (default {DEFAULTS['n_eff']})",
+    )
     add_model_arguments(parser, with_defaults=True)
-    parser.add_argument("--z", action="append", metavar="Z", help="redshift(s); repeat or give a comma list")
+    parser.add_argument(
+        "--z", action="append", metavar="Z", help="redshift(s); repeat or give a comma list"
+    )
     parser.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     parser.set_defaults(handler=run)
 
@@ -43,11 +76,23 @@ def evaluate(args: argparse.Namespace) -> dict:
     for flag, value in (("--H0", args.h0), ("--t-cmb", args.t_cmb)):
         if value <= 0:
             raise ParameterError(f"{flag} {value} is not allowed; it must be positive")
-    for flag, value in (("--omega-m", args.omega_m), ("--m-nu", args.m_nu), ("--n-eff", args.n_eff)):
+    for flag, value in (
+        ("--omega-m", args.omega_m),
+        ("--m-nu", args.m_nu),
+        ("--n-eff", args.n_eff),
+    ):
         if value < 0:
             raise ParameterError(f"{flag} {value} is not allowed; it must be zero or positive")
-    parameters = dict(h0=args.h0, omega_m=args.omega_m, omega_k=args.omega_k, w0=args.w0, wa=args.wa,
-                      m_nu=args.m_nu, n_eff=args.n_eff, t_cmb=args.t_cmb)
+    parameters = dict(
+        h0=args.h0,
+        omega_m=args.omega_m,
+        omega_k=args.omega_k,
+        w0=args.w0,
+        wa=args.wa,
+        m_nu=args.m_nu,
+        n_eff=args.n_eff,
+        t_cmb=args.t_cmb,
+    )
     background = make_background(**parameters, n_massive=args.n_massive, radiation=args.radiation)
     history = expansion_history(background, [float(t) for t in tokens])
     code = Exclusion(int(history.exclusion[0]))
@@ -58,16 +103,31 @@ def evaluate(args: argparse.Namespace) -> dict:
             "--omega-m or --omega-k, or check the dark-energy parameters"
         )
     if code != Exclusion.KEPT:
-        raise ParameterError(f"parameters not usable: {code.description}; raise --omega-m or lower --m-nu")
+        raise ParameterError(
+            f"parameters not usable: {code.description}; raise --omega-m or lower --m-nu"
+        )
     return {
         "age_gyr": float(history.age_gyr[0]),
         "hubble_time_gyr": float(history.hubble_time_gyr[0]),
         "lookback_gyr": {t: float(v) for t, v in zip(tokens, history.lookback_gyr[0], strict=True)},
-        "age_at_z_gyr": {t: float(v) for t, v in zip(tokens, history.cosmic_time_gyr[0], strict=True)},
-        "parameters": {"H0": args.h0, "Omega_m": args.omega_m, "Omega_k": args.omega_k, "w0": args.w0,
-                       "wa": args.wa, "m_nu": args.m_nu, "N_eff": args.n_eff, "T_cmb": args.t_cmb},
-        "model": {"radiation": args.radiation, "n_massive": args.n_massive,
-                  "Omega_de": float(background.omega_de[0])},
+        "age_at_z_gyr": {
+            t: float(v) for t, v in zip(tokens, history.cosmic_time_gyr[0], strict=True)
+        },
+        "parameters": {
+            "H0": args.h0,
+            "Omega_m": args.omega_m,
+            "Omega_k": args.omega_k,
+            "w0": args.w0,
+            "wa": args.wa,
+            "m_nu": args.m_nu,
+            "N_eff": args.n_eff,
+            "T_cmb": args.t_cmb,
+        },
+        "model": {
+            "radiation": args.radiation,
+            "n_massive": args.n_massive,
+            "Omega_de": float(background.omega_de[0]),
+        },
     }
 
 
@@ -84,6 +144,9 @@ def run(args: argparse.Namespace) -> int:
         for token, lookback in record["lookback_gyr"].items():
             out.write(f"{token:>10}  {lookback:15.4f}  {record['age_at_z_gyr'][token]:15.6g}\n")
     model = record["model"]
-    out.write(f"(radiation {model['radiation']}, Omega_de = {model['Omega_de']:.5f}, "
-              f"m_nu = {args.m_nu} eV in {model['n_massive']} species, N_eff = {args.n_eff}, T_cmb = {args.t_cmb} K)\n")
+    out.write(
+        f"(radiation {model['radiation']}, Omega_de = {model['Omega_de']:.5f}, "
+        f"m_nu = {args.m_nu} eV in {model['n_massive']} species, N_eff = {args.n_eff}, "
+        f"T_cmb = {args.t_cmb} K)\n"
+    )
     return 0

@@ -104,20 +104,23 @@ class Background:
             return values.reshape(values.shape + (1,) * (a.ndim - values.ndim))
 
         a2 = a * a
-        total = column(self.omega_radiation) + a * (column(self.omega_cb) + a * column(self.omega_k))
+        total = column(self.omega_radiation) + a * (
+            column(self.omega_cb) + a * column(self.omega_k)
+        )
         need_log = self.n_massive > 0 and self.radiation == "full"
         evolving = self.has_dark_energy_evolution
         ln_a = np.log(a) if (need_log or evolving) else None
         if evolving:
             w0, wa = column(self.w0), column(self.wa)
-            total += column(self.omega_de) * np.exp((1.0 - 3.0 * (w0 + wa)) * ln_a - 3.0 * wa * (1.0 - a))
+            total += column(self.omega_de) * np.exp(
+                (1.0 - 3.0 * (w0 + wa)) * ln_a - 3.0 * wa * (1.0 - a)
+            )
         else:
             total += column(self.omega_de) * (a2 * a2)
         if need_log:
             ratio = energy_density_ratio_from_log(column(self.ln_y_today) + ln_a)
             total += (self.n_massive * column(self.omega_nu_species)) * ratio
         return total
-
 
     def scaled_h2_on_grid(self, a: NDArray[np.float64]) -> NDArray[np.float64]:
         """a^4 E(a)^2 of every sample on one shared grid ``a`` of shape (k,); returns (n, k).
@@ -161,7 +164,9 @@ def _as_float_array(name: str, value: ArrayLike, n: int) -> NDArray[np.float64]:
     if array.ndim == 0:
         return np.full(n, float(array))
     if array.ndim != 1 or array.size != n:
-        raise ConfigError(f"parameter {name!r} has shape {array.shape}; expected a scalar or ({n},)")
+        raise ConfigError(
+            f"parameter {name!r} has shape {array.shape}; expected a scalar or ({n},)"
+        )
     return array
 
 
@@ -190,7 +195,9 @@ def make_background(
         )
     if n_massive not in (0, 1, 2, 3):
         raise ConfigError(f"n_massive must be 0, 1, 2 or 3 (got {n_massive})")
-    inputs = dict(h0=h0, omega_m=omega_m, omega_k=omega_k, w0=w0, wa=wa, m_nu=m_nu, n_eff=n_eff, t_cmb=t_cmb)
+    inputs = dict(
+        h0=h0, omega_m=omega_m, omega_k=omega_k, w0=w0, wa=wa, m_nu=m_nu, n_eff=n_eff, t_cmb=t_cmb
+    )
     n = max(np.size(v) for v in inputs.values())
     p = {name: _as_float_array(name, value, n) for name, value in inputs.items()}
 
@@ -203,19 +210,33 @@ def make_background(
     exclusion[invalid] = Exclusion.INVALID_PARAMETERS
     ok = exclusion == 0
     # Placeholders keep the arithmetic finite for excluded rows; their results are masked.
-    for name, placeholder in (("h0", 70.0), ("omega_m", 0.3), ("omega_k", 0.0), ("w0", -1.0),
-                              ("wa", 0.0), ("m_nu", 0.0), ("n_eff", 3.0), ("t_cmb", 2.7255)):
+    for name, placeholder in (
+        ("h0", 70.0),
+        ("omega_m", 0.3),
+        ("omega_k", 0.0),
+        ("w0", -1.0),
+        ("wa", 0.0),
+        ("m_nu", 0.0),
+        ("n_eff", 3.0),
+        ("t_cmb", 2.7255),
+    ):
         p[name] = np.where(ok, p[name], placeholder)
 
     h2 = (p["h0"] / 100.0) ** 2
     omega_gamma = constants.OMEGA_GAMMA_H2_PER_K4 * p["t_cmb"] ** 4 / h2
-    species = omega_gamma * constants.NEUTRINO_TO_PHOTON_PER_SPECIES * p["n_eff"] / constants.N_NEUTRINO_SPECIES
+    species = (
+        omega_gamma
+        * constants.NEUTRINO_TO_PHOTON_PER_SPECIES
+        * p["n_eff"]
+        / constants.N_NEUTRINO_SPECIES
+    )
     zeros = np.zeros(n)
     if radiation == "none":
         omega_gamma, species = zeros, zeros
     massive = n_massive if radiation == "full" else 0
     t_nu_k = (
-        p["t_cmb"] * constants.NEUTRINO_TEMPERATURE_RATIO
+        p["t_cmb"]
+        * constants.NEUTRINO_TEMPERATURE_RATIO
         * (p["n_eff"] / constants.N_NEUTRINO_SPECIES) ** 0.25
     )
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -27,8 +27,11 @@ def no_big_bang(background: Background) -> NDArray[np.bool_]:
     """Mask of shape ``(n,)``: True where a^4 E^2(a) <= 0 for some a in (0, 1]."""
     found = np.zeros(background.size, dtype=bool)
     b = background
-    safe = (b.omega_de >= 0) & (b.omega_cb >= 0) & (b.omega_radiation >= 0) & (
-        (b.omega_k >= 0) | (b.omega_radiation + b.omega_cb + b.omega_k > 0)
+    safe = (
+        (b.omega_de >= 0)
+        & (b.omega_cb >= 0)
+        & (b.omega_radiation >= 0)
+        & ((b.omega_k >= 0) | (b.omega_radiation + b.omega_cb + b.omega_k > 0))
     )
     suspect = np.flatnonzero(~safe)
     if suspect.size:

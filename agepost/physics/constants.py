@@ -26,10 +26,14 @@ GIGAYEAR_S = 1e9 * JULIAN_YEAR_S
 HUBBLE_TIME_GYR_KM_S_MPC = MEGAPARSEC_KM / GIGAYEAR_S
 
 #: Stefan-Boltzmann constant from its exact SI definition, W m^-2 K^-4.
-STEFAN_BOLTZMANN = 2.0 * math.pi**5 * BOLTZMANN_J_K**4 / (15.0 * PLANCK_J_S**3 * SPEED_OF_LIGHT_M_S**2)
+STEFAN_BOLTZMANN = (
+    2.0 * math.pi**5 * BOLTZMANN_J_K**4 / (15.0 * PLANCK_J_S**3 * SPEED_OF_LIGHT_M_S**2)
+)
 
 #: Critical density for H0 = 100 km/s/Mpc (h = 1), kg m^-3.
-CRITICAL_DENSITY_H2_KG_M3 = 3.0 * (100.0 / MEGAPARSEC_KM) ** 2 / (8.0 * math.pi * GRAVITATIONAL_M3_KG_S2)
+CRITICAL_DENSITY_H2_KG_M3 = (
+    3.0 * (100.0 / MEGAPARSEC_KM) ** 2 / (8.0 * math.pi * GRAVITATIONAL_M3_KG_S2)
+)
 
 #: Photon density parameter times h^2 per K^4: Omega_gamma h^2 = this * T_cmb^4 (about 2.47e-5
 #: at 2.7255 K). Energy density 4 sigma T^4 / c, divided by rho_crit c^2.

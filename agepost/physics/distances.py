@@ -35,20 +35,30 @@ def transverse_comoving_distance(
     return np.where(omega_k == 0, comoving_mpc, curved)
 
 
-def luminosity_distance(background: Background, redshifts: ArrayLike, comoving_mpc: NDArray) -> NDArray:
+def luminosity_distance(
+    background: Background, redshifts: ArrayLike, comoving_mpc: NDArray
+) -> NDArray:
     """D_L = (1 + z) D_M in Mpc, shape (n, n_z)."""
     z = validate_redshifts(redshifts)
     return (1.0 + z)[None, :] * transverse_comoving_distance(background, comoving_mpc)
 
 
-def distance_modulus(background: Background, redshifts: ArrayLike, comoving_mpc: NDArray) -> NDArray:
+def distance_modulus(
+    background: Background, redshifts: ArrayLike, comoving_mpc: NDArray
+) -> NDArray:
     """mu = 5 log10(D_L / 10 pc), shape (n, n_z)."""
     return 5.0 * np.log10(luminosity_distance(background, redshifts, comoving_mpc)) + 25.0
 
 
-def volume_averaged_distance(background: Background, redshifts: ArrayLike, comoving_mpc: NDArray) -> NDArray:
+def volume_averaged_distance(
+    background: Background, redshifts: ArrayLike, comoving_mpc: NDArray
+) -> NDArray:
     """D_V = [D_M^2 c z / H(z)]^(1/3) in Mpc, shape (n, n_z) (Eisenstein et al. 2005, eq. 2)."""
     z = validate_redshifts(redshifts)
     d_m = transverse_comoving_distance(background, comoving_mpc)
-    c_over_h = hubble_distance_mpc(background.h0)[:, None] * background.h0[:, None] / hubble_rate(background, z)
+    c_over_h = (
+        hubble_distance_mpc(background.h0)[:, None]
+        * background.h0[:, None]
+        / hubble_rate(background, z)
+    )
     return np.cbrt(d_m**2 * z[None, :] * c_over_h)

@@ -54,7 +54,9 @@ def panel_integrals(
             values[usable[accepted]] = shared[accepted]
             rest = np.flatnonzero(~accepted)
             if rest.size:
-                own, converged = _own_node_pass(bg.take(rest), scale_factors, required, tail_tolerance)
+                own, converged = _own_node_pass(
+                    bg.take(rest), scale_factors, required, tail_tolerance
+                )
                 values[usable[rest]] = np.where(converged[:, None, None], own, np.nan)
                 codes[usable[rest[~converged]]] = Exclusion.NOT_CONVERGED
     return values[..., 0], (values[..., 1] if distances else None), codes
@@ -119,7 +121,11 @@ def _own_node_pass(
         return (a * inverse_root)[..., None]
 
     result = integrate_panels(
-        integrand, lower, v_edges, n_integrands=required.shape[1],
-        tail_tolerance=tail_tolerance, required=required,
+        integrand,
+        lower,
+        v_edges,
+        n_integrands=required.shape[1],
+        tail_tolerance=tail_tolerance,
+        required=required,
     )
     return result.values, result.converged

@@ -97,7 +97,6 @@ def expansion_history(
     """
     z = validate_redshifts(redshifts)
     n = background.size
-    n_z = z.size
     scale_factors = np.unique(np.concatenate([1.0 / (1.0 + z), [1.0]]))  # increasing, ends at 1
     position = np.searchsorted(scale_factors, 1.0 / (1.0 + z))
     cumulative_time = np.full((n, scale_factors.size), np.nan)
@@ -122,7 +121,10 @@ def expansion_history(
     age = cumulative_time[:, -1] * t_h_masked
     comoving = None
     if distance_from_today is not None:
-        comoving = distance_from_today[:, position] * np.where(excluded, np.nan, hubble_distance_mpc(background.h0))[:, None]
+        comoving = (
+            distance_from_today[:, position]
+            * np.where(excluded, np.nan, hubble_distance_mpc(background.h0))[:, None]
+        )
     return ExpansionHistory(
         redshifts=z,
         age_gyr=age,

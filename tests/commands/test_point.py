@@ -20,8 +20,19 @@ def run_json(capsys, *args):
 
 
 def test_json_keys_and_values(capsys):
-    code, record, _ = run_json(capsys, "--H0", "67.5", "--omega-m", "0.315", "--radiation", "none",
-                               "--z", "0.5", "--z", "1,2")
+    code, record, _ = run_json(
+        capsys,
+        "--H0",
+        "67.5",
+        "--omega-m",
+        "0.315",
+        "--radiation",
+        "none",
+        "--z",
+        "0.5",
+        "--z",
+        "1,2",
+    )
     assert code == 0
     # Common practice: 13.776 Gyr for flat LambdaCDM, H0 = 67.5, Omega_m = 0.315, no radiation.
     assert round(record["age_gyr"], 3) == 13.776
@@ -56,21 +67,39 @@ def test_bad_points_give_one_line_and_exit_2(capsys, arguments, expected):
     assert "Traceback" not in err and len(err.strip().splitlines()) == 1
 
 
-@pytest.mark.parametrize("arguments", [["--H0", "nan", "--omega-m", "0.3"],
-                                       ["--H0", "70", "--omega-m", "0.3", "--radiation", "hot"]])
+@pytest.mark.parametrize(
+    "arguments",
+    [["--H0", "nan", "--omega-m", "0.3"], ["--H0", "70", "--omega-m", "0.3", "--radiation", "hot"]],
+)
 def test_unusable_flag_values_exit_2(capsys, arguments):
     assert main(["point", *arguments]) == 2
     assert "Traceback" not in capsys.readouterr().err
 
 
 def test_installed_command_and_module_entry_point():
-    executable = shutil.which("agepost") or shutil.which("agepost", path=str(Path(sys.executable).parent))
+    executable = shutil.which("agepost") or shutil.which(
+        "agepost", path=str(Path(sys.executable).parent)
+    )
     if executable is None:
         pytest.skip("the agepost console script is not on PATH (package not installed)")
-    done = subprocess.run([executable, "point", "--H0", "70", "--omega-m", "0.3", "--json"],
-                          capture_output=True, text=True, timeout=120, check=False)
+    done = subprocess.run(
+        [executable, "point", "--H0", "70", "--omega-m", "0.3", "--json"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
     assert done.returncode == 0, done.stderr
     assert json.loads(done.stdout)["age_gyr"] > 13
-    failed = subprocess.run([executable, "point", "--H0", "70", "--omega-m", "0.3", "--omega-k", "-2"],
-                            capture_output=True, text=True, timeout=120, check=False)
-    assert failed.returncode == 2 and "no big bang" in failed.stderr and "Traceback" not in failed.stderr
+    failed = subprocess.run(
+        [executable, "point", "--H0", "70", "--omega-m", "0.3", "--omega-k", "-2"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+        check=False,
+    )
+    assert (
+        failed.returncode == 2
+        and "no big bang" in failed.stderr
+        and "Traceback" not in failed.stderr
+    )

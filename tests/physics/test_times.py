@@ -52,7 +52,9 @@ def test_flat_matter_lambda_arcsinh_formula(omega_m):
     z = np.array([0.0, 0.3, 1.0, 5.0, 1100.0])
     history = expansion_history(make_background(h0=H0, omega_m=omega_m, radiation="none"), z)
     a = 1.0 / (1.0 + z)
-    expected = 2.0 / (3.0 * np.sqrt(omega_l)) * np.arcsinh(np.sqrt(omega_l / omega_m) * a**1.5) * T_H
+    expected = (
+        2.0 / (3.0 * np.sqrt(omega_l)) * np.arcsinh(np.sqrt(omega_l / omega_m) * a**1.5) * T_H
+    )
     assert_allclose(history.cosmic_time_gyr[0], expected, rtol=EXACT)
     assert_allclose(history.lookback_gyr[0][1:], expected[0] - expected[1:], rtol=1e-8)
 
@@ -61,7 +63,9 @@ def test_flat_matter_lambda_arcsinh_formula(omega_m):
 def test_open_matter_only_parametric_form(omega_m):
     # Textbook parametric solution for matter + negative curvature (Omega_k = 1 - Omega_m):
     # H0 t0 = 1/(1-Om) - Om / (2 (1-Om)^1.5) arccosh(2/Om - 1).
-    expected = 1 / (1 - omega_m) - omega_m / (2 * (1 - omega_m) ** 1.5) * np.arccosh(2 / omega_m - 1)
+    expected = 1 / (1 - omega_m) - omega_m / (2 * (1 - omega_m) ** 1.5) * np.arccosh(
+        2 / omega_m - 1
+    )
     got = age(h0=H0, omega_m=omega_m, omega_k=1 - omega_m, radiation="none")
     assert_allclose(got, expected * T_H, rtol=EXACT)
 
@@ -84,8 +88,10 @@ def test_flat_matter_radiation_exact_formula():
     omega_m = bg.omega_m[0]
     z = np.array([0.0, 10.0, 1100.0, 1e5])
     a = 1.0 / (1.0 + z)
-    expected = 2 / (3 * omega_m**2) * (
-        (omega_m * a - 2 * omega_r) * np.sqrt(omega_m * a + omega_r) + 2 * omega_r**1.5
+    expected = (
+        2
+        / (3 * omega_m**2)
+        * ((omega_m * a - 2 * omega_r) * np.sqrt(omega_m * a + omega_r) + 2 * omega_r**1.5)
     )
     history = expansion_history(bg, z)
     assert_allclose(history.cosmic_time_gyr[0], expected * T_H, rtol=EXACT)
@@ -94,7 +100,11 @@ def test_flat_matter_radiation_exact_formula():
 @pytest.mark.parametrize(
     ("omega_m", "omega_k", "table_age_gyr"),
     [
-        (1.0, 0.0, 9.3),  # Lahav & Suto 2004, Living Rev. Relativ. 7, 8, Table 1 (Einstein-de Sitter)
+        (
+            1.0,
+            0.0,
+            9.3,
+        ),  # Lahav & Suto 2004, Living Rev. Relativ. 7, 8, Table 1 (Einstein-de Sitter)
         (0.3, 0.0, 13.5),  # Lahav & Suto 2004, Table 1, flat Lambda model, Omega_m = 0.3
     ],
 )
@@ -122,11 +132,20 @@ def test_common_practice_flat_lcdm_age_and_radiation_shift():
 
 def test_cosmic_plus_lookback_is_age_for_general_model():
     # Identity of the definitions: t(z) + lookback(z) = t0.
-    bg = make_background(h0=[60.0, 75.0], omega_m=[0.25, 0.4], omega_k=[0.1, -0.1],
-                         w0=[-0.8, -1.2], wa=[0.5, -0.5], m_nu=[0.1, 0.5])
+    bg = make_background(
+        h0=[60.0, 75.0],
+        omega_m=[0.25, 0.4],
+        omega_k=[0.1, -0.1],
+        w0=[-0.8, -1.2],
+        wa=[0.5, -0.5],
+        m_nu=[0.1, 0.5],
+    )
     history = expansion_history(bg, [0.1, 1.0, 3.0, 1100.0])
-    assert_allclose(history.cosmic_time_gyr + history.lookback_gyr,
-                    np.repeat(history.age_gyr[:, None], 4, axis=1), rtol=1e-12)
+    assert_allclose(
+        history.cosmic_time_gyr + history.lookback_gyr,
+        np.repeat(history.age_gyr[:, None], 4, axis=1),
+        rtol=1e-12,
+    )
 
 
 def test_unordered_and_repeated_redshifts_keep_the_given_order():
@@ -143,12 +162,19 @@ def test_batch_equals_one_by_one():
     # when it falls off the shared nodes, so both paths are exercised here).
     rng = np.random.default_rng(5)
     n = 50
-    parameters = dict(h0=rng.uniform(50, 90, n), omega_m=rng.uniform(0.05, 0.6, n),
-                      omega_k=rng.uniform(-0.2, 0.2, n), w0=rng.uniform(-2, 0, n),
-                      wa=rng.uniform(-2, 2, n), m_nu=rng.uniform(0, 1, n))
+    parameters = dict(
+        h0=rng.uniform(50, 90, n),
+        omega_m=rng.uniform(0.05, 0.6, n),
+        omega_k=rng.uniform(-0.2, 0.2, n),
+        w0=rng.uniform(-2, 0, n),
+        wa=rng.uniform(-2, 2, n),
+        m_nu=rng.uniform(0, 1, n),
+    )
     batch = expansion_history(make_background(**parameters), [0.5, 3.0])
     for i in range(0, n, 7):
-        one = expansion_history(make_background(**{k: v[i] for k, v in parameters.items()}), [0.5, 3.0])
+        one = expansion_history(
+            make_background(**{k: v[i] for k, v in parameters.items()}), [0.5, 3.0]
+        )
         assert_allclose(one.lookback_gyr[0], batch.lookback_gyr[i], rtol=1e-8)
 
 
@@ -158,10 +184,15 @@ def test_hubble_time_constant():
 
 
 def test_excluded_parameters_give_nan_with_reason():
-    bg = make_background(h0=[70.0, -5.0, np.nan, 70.0], omega_m=[0.3, 0.3, 0.3, 0.0001], m_nu=[0.06, 0.06, 0.06, 1.0])
+    bg = make_background(
+        h0=[70.0, -5.0, np.nan, 70.0], omega_m=[0.3, 0.3, 0.3, 0.0001], m_nu=[0.06, 0.06, 0.06, 1.0]
+    )
     history = expansion_history(bg, [1.0])
     assert list(history.exclusion) == [
-        Exclusion.KEPT, Exclusion.INVALID_PARAMETERS, Exclusion.NON_FINITE_INPUT, Exclusion.MATTER_BELOW_NEUTRINOS,
+        Exclusion.KEPT,
+        Exclusion.INVALID_PARAMETERS,
+        Exclusion.NON_FINITE_INPUT,
+        Exclusion.MATTER_BELOW_NEUTRINOS,
     ]
     assert np.isfinite(history.age_gyr[0]) and np.all(np.isnan(history.age_gyr[1:]))
     assert np.all(np.isnan(history.lookback_gyr[1:]))

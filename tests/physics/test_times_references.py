@@ -21,8 +21,9 @@ def _quad(function, lower, upper):
     points = [p for p in (1e-5, 1e-4, 1e-3, 1e-2, 0.1) if lower < p < upper]
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", integrate.IntegrationWarning)
-        value, _ = integrate.quad(function, lower, upper, epsabs=0.0, epsrel=1e-12, limit=2000,
-                                  points=points or None)
+        value, _ = integrate.quad(
+            function, lower, upper, epsabs=0.0, epsrel=1e-12, limit=2000, points=points or None
+        )
     return value
 
 
@@ -32,9 +33,14 @@ def test_random_box_against_scipy_quad():
     # Omega_k -0.2-0.2, w0 -2-0, wa -2-2 (where a big bang exists), m_nu 0-1 eV, z 0-1100.
     rng = np.random.default_rng(20261202)
     n = 60
-    bg = make_background(h0=rng.uniform(50, 90, n), omega_m=rng.uniform(0.05, 0.6, n),
-                         omega_k=rng.uniform(-0.2, 0.2, n), w0=rng.uniform(-2, 0, n),
-                         wa=rng.uniform(-2, 2, n), m_nu=rng.uniform(0, 1, n))
+    bg = make_background(
+        h0=rng.uniform(50, 90, n),
+        omega_m=rng.uniform(0.05, 0.6, n),
+        omega_k=rng.uniform(-0.2, 0.2, n),
+        w0=rng.uniform(-2, 0, n),
+        wa=rng.uniform(-2, 2, n),
+        m_nu=rng.uniform(0, 1, n),
+    )
     z = np.array([0.0, 0.02, 0.7, 3.0, 30.0, 1100.0])
     history = expansion_history(bg, z, distances=True)
     kept = np.flatnonzero(history.exclusion == Exclusion.KEPT)
@@ -43,10 +49,13 @@ def test_random_box_against_scipy_quad():
     with np.errstate(invalid="ignore"):
         for i in kept:
             one = bg.take(np.array([i]))
-            def time_integrand(a):
+
+            def time_integrand(a, one=one):
                 return a / np.sqrt(one.scaled_h2(np.array([a]))[0])
-            def distance_integrand(a):
+
+            def distance_integrand(a, one=one):
                 return 1.0 / np.sqrt(one.scaled_h2(np.array([a]))[0])
+
             t_h = history.hubble_time_gyr[i]
             age = _quad(time_integrand, 0.0, 1.0)
             worst = max(worst, abs(history.age_gyr[i] / t_h / age - 1))
@@ -54,9 +63,17 @@ def test_random_box_against_scipy_quad():
                 cosmic = _quad(time_integrand, 0.0, a)
                 lookback = _quad(time_integrand, a, 1.0)
                 distance = _quad(distance_integrand, a, 1.0)
-                worst = max(worst, abs(history.cosmic_time_gyr[i, j] / t_h / cosmic - 1),
-                            abs(history.lookback_gyr[i, j] / t_h / lookback - 1),
-                            abs(history.comoving_distance_mpc[i, j] / hubble_distance_mpc(bg.h0[i]) / distance - 1))
+                worst = max(
+                    worst,
+                    abs(history.cosmic_time_gyr[i, j] / t_h / cosmic - 1),
+                    abs(history.lookback_gyr[i, j] / t_h / lookback - 1),
+                    abs(
+                        history.comoving_distance_mpc[i, j]
+                        / hubble_distance_mpc(bg.h0[i])
+                        / distance
+                        - 1
+                    ),
+                )
     assert worst <= 1e-8, worst
 
 
@@ -70,7 +87,9 @@ def test_astropy_massless_neutrinos_agree_to_rounding():
     reference = cosmology.FlatLambdaCDM(H0=67.66, Om0=0.3111, Tcmb0=2.7255, Neff=3.046)
     assert_allclose(history.age_gyr[0], reference.age(0).value, rtol=1e-8)
     assert_allclose(history.lookback_gyr[0], reference.lookback_time(z).value, rtol=1e-8)
-    assert_allclose(history.comoving_distance_mpc[0], reference.comoving_distance(z).value, rtol=1e-8)
+    assert_allclose(
+        history.comoving_distance_mpc[0], reference.comoving_distance(z).value, rtol=1e-8
+    )
 
 
 def test_astropy_curved_w0wa_agrees():
@@ -78,8 +97,9 @@ def test_astropy_curved_w0wa_agrees():
     z = np.array([0.3, 1.0, 4.0])
     bg = make_background(h0=72.0, omega_m=0.28, omega_k=0.05, w0=-0.9, wa=0.3, radiation="massless")
     history = expansion_history(bg, z, distances=True)
-    reference = cosmology.w0waCDM(H0=72.0, Om0=0.28, Ode0=float(bg.omega_de[0]), w0=-0.9, wa=0.3,
-                                  Tcmb0=2.7255, Neff=3.044)
+    reference = cosmology.w0waCDM(
+        H0=72.0, Om0=0.28, Ode0=float(bg.omega_de[0]), w0=-0.9, wa=0.3, Tcmb0=2.7255, Neff=3.044
+    )
     assert_allclose(history.age_gyr[0], reference.age(0).value, rtol=1e-8)
     assert_allclose(history.lookback_gyr[0], reference.lookback_time(z).value, rtol=1e-8)
 
@@ -96,7 +116,12 @@ def test_astropy_massive_neutrinos_agree_within_convention_difference():
     z = np.array([0.5, 2.0, 1100.0])
     bg = make_background(h0=67.66, omega_m=0.3111, n_eff=3.046, m_nu=0.06)
     history = expansion_history(bg, z)
-    reference = cosmology.FlatLambdaCDM(H0=67.66, Om0=float(bg.omega_cb[0]), Tcmb0=2.7255, Neff=3.046,
-                                        m_nu=[0.06, 0.0, 0.0] * units.eV)
+    reference = cosmology.FlatLambdaCDM(
+        H0=67.66,
+        Om0=float(bg.omega_cb[0]),
+        Tcmb0=2.7255,
+        Neff=3.046,
+        m_nu=[0.06, 0.0, 0.0] * units.eV,
+    )
     assert_allclose(history.age_gyr[0], reference.age(0).value, rtol=2e-5)
     assert_allclose(history.lookback_gyr[0], reference.lookback_time(z).value, rtol=2e-5)
