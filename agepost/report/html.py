@@ -13,7 +13,7 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from agepost.report.tables import format_asymmetric, round_to_error
+from agepost.report.tables import asymmetric_parts, round_to_error
 
 #: Context keys :func:`render_report` understands (all optional).
 CONTEXT_KEYS = (
@@ -73,10 +73,12 @@ def _asymmetric(median: Any, ends: Sequence[Any]) -> str:
     if not (_finite(median) and all(_finite(v) for v in ends)):
         return _DASH
     low, high = ends
-    text = format_asymmetric(median, high - median, median - low)
-    value, rest = text.split("^{+", 1)
-    plus, minus = rest[:-1].split("}_{-", 1)
-    return f"{_text(value)}<sup>+{_text(plus)}</sup><sub>&minus;{_text(minus)}</sub>"
+    parts = asymmetric_parts(median, high - median, median - low)
+    if parts is None:
+        return _text(f"{median:.6g} ± 0")
+    value, plus, minus, exponent = parts
+    text = f"{_text(value)}<sup>+{_text(plus)}</sup><sub>&minus;{_text(minus)}</sub>"
+    return text if exponent is None else f"({text}) &times; 10<sup>{exponent}</sup>"
 
 
 def _level_keys(summary: Mapping[str, Mapping[str, Any]]) -> list[str]:

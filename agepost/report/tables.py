@@ -9,9 +9,11 @@ A value with asymmetric errors is written ``value^{+up}_{-down}`` (median and th
 the equal-tailed interval). The larger error is rounded to two significant digits, and
 the value and the smaller error are rounded to the same decimal place; for example
 ``13.78723 (+0.02131, -0.01984) -> 13.787^{+0.021}_{-0.020}`` and
-``4567.2 (+123, -98) -> 4570^{+120}_{-100}``. If both errors are zero the value is
-given to six significant digits with ``\\pm 0``; an interval that is not quoted (NaN)
-is written ``--``.
+``4567.2 (+123, -98) -> 4570^{+120}_{-100}``. Very small or large numbers (decimal
+exponent of the value or larger error <= -4 or >= 5) get a power of ten factored out:
+``3.66996e-4 (+1.9e-6, -1.8e-6) -> (3.670^{+0.019}_{-0.018}) \\times 10^{-4}``. If both
+errors are zero the value is given to six significant digits with ``\\pm 0``; an
+interval that is not quoted (NaN) is written ``--``.
 """
 
 from __future__ import annotations
@@ -131,6 +133,33 @@ def round_to_error(value: float | None, error: float | None) -> str:
     return _fixed(value, _decimal_place(abs(error)))
 
 
+#: A power of ten is factored out when the value's (or larger error's) decimal exponent is
+#: at or below the first number or at or above the second.
+SCIENTIFIC_EXPONENTS = (-4, 5)
+
+
+def asymmetric_parts(
+    value: float, plus: float, minus: float
+) -> tuple[str, str, str, int | None] | None:
+    """Rounded texts ``(value, plus, minus, exponent)`` of a value with asymmetric errors.
+
+    Digits follow the module rule. ``exponent`` is None in fixed notation, or the power of
+    ten factored out of all three (see :data:`SCIENTIFIC_EXPONENTS`). Returns None when a
+    number is not finite or both errors are zero.
+    """
+    if not all(math.isfinite(v) for v in (value, plus, minus)):
+        return None
+    larger = max(abs(plus), abs(minus))
+    if larger == 0:
+        return None
+    exponent = math.floor(math.log10(max(abs(value), larger)))
+    low, high = SCIENTIFIC_EXPONENTS
+    scale = 10.0**exponent if (exponent <= low or exponent >= high) else 1.0
+    decimals = _decimal_place(larger / scale)
+    texts = [_fixed(v / scale, decimals) for v in (value, abs(plus), abs(minus))]
+    return texts[0], texts[1], texts[2], (exponent if scale != 1.0 else None)
+
+
 def format_asymmetric(value: float, plus: float, minus: float) -> str:
     """LaTeX ``value^{+plus}_{-minus}`` with digits set by the larger error (see module doc).
 
@@ -138,17 +167,15 @@ def format_asymmetric(value: float, plus: float, minus: float) -> str:
     --------
     >>> format_asymmetric(13.78723, 0.02131, 0.01984)
     '13.787^{+0.021}_{-0.020}'
+    >>> format_asymmetric(3.66996e-4, 1.9e-6, 1.8e-6)
+    '(3.670^{+0.019}_{-0.018}) \\\\times 10^{-4}'
     """
-    if not all(math.isfinite(v) for v in (value, plus, minus)):
-        return "--"
-    larger = max(abs(plus), abs(minus))
-    if larger == 0:
-        return f"{value:.6g} \\pm 0"
-    decimals = _decimal_place(larger)
-    return (
-        f"{_fixed(value, decimals)}^{{+{_fixed(abs(plus), decimals)}}}"
-        f"_{{-{_fixed(abs(minus), decimals)}}}"
-    )
+    parts = asymmetric_parts(value, plus, minus)
+    if parts is None:
+        finite = all(math.isfinite(v) for v in (value, plus, minus))
+        return f"{value:.6g} \\pm 0" if finite else "--"
+    text = f"{parts[0]}^{{+{parts[1]}}}_{{-{parts[2]}}}"
+    return text if parts[3] is None else f"({text}) \\times 10^{{{parts[3]}}}"
 
 
 _LATEX_SPECIAL = {

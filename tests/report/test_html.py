@@ -134,3 +134,9 @@ def test_report_renders_in_headless_chromium(tmp_path, context, figures):
     for rgb in ((0x00, 0x72, 0xB2), (0xE6, 0x9F, 0x00)):
         close = np.all(np.abs(pixels - np.array(rgb) / 255) < 0.04, axis=-1)
         assert close.sum() > 2_000, rgb
+
+
+def test_tiny_values_get_a_power_of_ten():
+    x = np.random.default_rng(92).normal(3.67e-4, 1.9e-6, 4000)
+    text = render_report({"summary": {"t_z1100": quantity_record(summarise(x), unit="Gyr")}}, {})
+    assert "&times; 10<sup>-4</sup>" in text
