@@ -11,6 +11,8 @@ import io
 import math
 from typing import Any
 
+from agepost.compare.confront import ObjectVerdict
+from agepost.compare.reweight import Reweighted
 from agepost.compare.runs import LoadedRun
 from agepost.compare.shifts import RunComparison
 from agepost.report.tables import quantity_record
@@ -175,3 +177,52 @@ def _ends(intervals: dict[str, IntervalSummary], keys: list[str]) -> list[str]:
         ends = (*item.equal_tail, *item.hpd) if item is not None else (math.nan,) * 4
         cells += [_number(v) for v in ends]
     return cells
+
+
+def verdict_record(verdict: ObjectVerdict) -> dict[str, Any]:
+    """Record of one object in ``confront.json`` (keyed by the object's name)."""
+    obj = verdict.obj
+    return {
+        "z": obj.z,
+        "kind": obj.kind,
+        "age_gyr": obj.age_gyr,
+        "age_err_gyr": obj.age_err_gyr if obj.kind == "gaussian" else None,
+        "universe_age_at_z": quantity_record(verdict.universe_time, unit="Gyr"),
+        "p_universe_younger": verdict.p_universe_younger,
+        "p_universe_younger_mcse": verdict.p_universe_younger_mcse,
+        "formation_z": None if verdict.formation_z is None else quantity_record(verdict.formation_z, unit=""),
+        "formation_z_is_lower_bound": obj.kind == "lower_limit",
+        "frac_no_formation": verdict.frac_no_formation,
+        "warnings": list(verdict.warnings),
+    }
+
+
+def reweight_record(result: Reweighted, run: LoadedRun, *, ess_floor: float) -> dict[str, Any]:
+    """The body of ``reweight.json``: constraint, ESS before and after, summaries before and after."""
+    constraint = result.constraint
+    sections: dict[str, dict[str, Any]] = {"quantities": {}, "parameters": {}}
+    for name, before in result.before.items():
+        section = "quantities" if name in run.quantities.columns else "parameters"
+        unit = "Gyr" if section == "quantities" else PARAMETER_UNITS.get(name, "")
+        after = result.after[name]
+        sections[section][name] = {
+            "unit": unit,
+            "before": quantity_record(before, unit=unit),
+            "after": quantity_record(after, unit=unit),
+            "median_shift": after.median - before.median,
+        }
+    return {
+        "run": run_record(run),
+        "constraint": {
+            "kind": constraint.kind,
+            "age_gyr": constraint.age_gyr,
+            "age_err_gyr": constraint.age_err_gyr,
+            "description": constraint.describe(),
+        },
+        "ess_kish_before": result.ess_kish_before,
+        "ess_kish_after": result.ess_kish_after,
+        "ess_fraction_kept": result.ess_kish_after / result.ess_kish_before,
+        "ess_floor": ess_floor,
+        **sections,
+        "warnings": list(result.warnings),
+    }

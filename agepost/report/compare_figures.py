@@ -259,8 +259,8 @@ def objects_figure(
 
     Returns
     -------
-    Figure, one column wide (3.4 x 2.6 in). An object above the band is older than the
-    universe at its redshift.
+    Figure, one column wide (3.4 x 2.6 in plus the legend below), both axes logarithmic.
+    An object above the band is older than the universe at its redshift.
     """
     z = np.asarray(z_grid, dtype=np.float64)
     times = np.asarray(cosmic_time, dtype=np.float64)
@@ -268,26 +268,28 @@ def objects_figure(
     with style.house_style():
         fig = fig or Figure(figsize=(style.COLUMN_WIDTH_IN, 2.6))
         ax = fig.add_subplot() if not fig.axes else fig.axes[0]
-        _band(ax, 1 + z, times, None, levels, style.MAIN, "-", "age of the universe $t(z)$")
+        bands = ", ".join(f"{100 * v:g}%" for v in sorted(levels))
+        _band(ax, 1 + z, times, None, levels, style.MAIN, "-", f"age of the universe $t(z)$ ({bands})")
         markers = ("o", "s", "D", "^", "v", "P", "X")
         for index, (name, z_obj, age, err, kind) in enumerate(objects):
             common = {"color": style.SECOND if kind == "gaussian" else style.DARK,
                       "marker": markers[index % len(markers)], "markersize": 3.5, "linestyle": "none",
                       "capsize": 1.5, "elinewidth": 0.8, "label": name}
-            if kind == "lower_limit":
-                ax.errorbar(1 + z_obj, age, yerr=0.12 * max(age, 0.5), lolims=True, **common)
+            if kind == "lower_limit":  # an upward arrow a quarter of the age long (log axis)
+                ax.errorbar(1 + z_obj, age, yerr=[[0.0], [0.25 * age]], lolims=True, **common)
             else:
                 ax.errorbar(1 + z_obj, age, yerr=err, **common)
         ax.set_xscale("log")
-        ax.set_xlim(1 + z[0], 1 + z[-1])
-        ax.set_ylim(bottom=0)
+        ax.set_yscale("log")
+        ax.set_xlim(0.93 * (1 + z[0]), 1 + z[-1])
         ax.set_xlabel("$1 + z$")
         ax.set_ylabel("age [Gyr]")
         ax.xaxis.set_major_formatter(FormatStrFormatter("%g"))
+        ax.yaxis.set_major_formatter(FormatStrFormatter("%g"))
         n = times.shape[0]
         ax.set_title(f"{n:,} of {subsample_of:,} samples, drawn by weight" if subsample_of else f"{n:,} samples",
                      loc="right", fontsize=6.0)
-        ax.legend(loc="upper right", fontsize=5.5, ncol=1 + len(objects) // 5)
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize=5.5, ncol=2)
     return fig
 
 
