@@ -17,7 +17,7 @@ from agepost import __version__
 from agepost.errors import AgepostError
 
 #: Subcommand modules under ``agepost.commands``, in help order.
-COMMANDS: tuple[str, ...] = ("point", "derive", "run", "fit", "compare")
+COMMANDS: tuple[str, ...] = ("point", "derive", "run", "fit", "compare", "confront", "reweight")
 
 EXIT_USAGE = 2
 
