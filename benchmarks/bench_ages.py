@@ -104,10 +104,13 @@ def measure(name: str, parameters: dict, subset: int) -> None:
     background = make_background(**parameters)
     n = background.size
     expansion_history(background.take(slice(0, 1000)))  # warm the neutrino table
+    seconds = np.inf
+    for _ in range(3):  # best of three: the machine may be shared
+        start = time.perf_counter()
+        history = expansion_history(background)
+        seconds = min(seconds, time.perf_counter() - start)
     tracemalloc.start()
-    start = time.perf_counter()
-    history = expansion_history(background)
-    seconds = time.perf_counter() - start
+    expansion_history(background.take(slice(0, min(n, 200_000))))
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()
     kept = np.flatnonzero(history.exclusion == 0)
@@ -133,8 +136,8 @@ def measure(name: str, parameters: dict, subset: int) -> None:
     ]
     print(f"\n{name}")
     print(f"  samples                 {n:,} ({n - kept.size} excluded: no big bang or invalid)")
-    print(f"  engine                  {rate:,.0f} ages per second ({seconds:.2f} s)")
-    print(f"  peak memory of the call {peak / 2**20:,.0f} MiB (tracemalloc)")
+    print(f"  engine                  {rate:,.0f} ages per second ({seconds:.2f} s, best of 3)")
+    print(f"  peak memory             {peak / 2**20:,.0f} MiB for 200,000 samples (tracemalloc)")
     print(
         f"  max relative error      {max(errors):.2e} over {len(check)} samples vs quad at epsrel 1e-12"
     )

@@ -102,17 +102,19 @@ def expansion_history(
     cumulative_time = np.full((n, scale_factors.size), np.nan)
     distance_from_today = np.full((n, scale_factors.size), np.nan) if distances else None
     exclusion = background.exclusion.copy()
+    # Chunks of similar Omega_m share their quadrature nodes well (see physics.integrals).
+    order = np.argsort(background.omega_m, kind="stable") if n > CHUNK_SIZE else np.arange(n)
     for start in range(0, n, CHUNK_SIZE):
-        part = slice(start, min(start + CHUNK_SIZE, n))
+        part = order[start : start + CHUNK_SIZE]
         time_panels, distance_panels, codes = panel_integrals(
             background.take(part), scale_factors, distances=distances, tail_tolerance=tail_tolerance
         )
         exclusion[part] = codes
         cumulative_time[part] = np.cumsum(time_panels, axis=1)
         if distance_from_today is not None:
-            distance_from_today[part] = np.cumsum(distance_panels[:, ::-1], axis=1)[:, ::-1]
+            from_today = np.cumsum(distance_panels[:, ::-1], axis=1)[:, ::-1]
             distance_from_today[part] = np.concatenate(
-                [distance_from_today[part][:, 1:], np.zeros((part.stop - part.start, 1))], axis=1
+                [from_today[:, 1:], np.zeros((part.size, 1))], axis=1
             )
     lookback_units = _lookback_from_panels(cumulative_time)
     t_h = hubble_time_gyr(background.h0)
