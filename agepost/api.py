@@ -8,6 +8,7 @@
 from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -58,12 +59,12 @@ def expansion_history(
     return _history(background, redshifts, distances=distances)
 
 
-def age_gyr(**parameters: ArrayLike) -> NDArray[np.float64]:
+def age_gyr(**parameters: Any) -> NDArray[np.float64]:
     """Age today in Gyr, shape (n,); keywords as in :func:`expansion_history`."""
     return expansion_history(**parameters).age_gyr
 
 
-def lookback_gyr(redshifts: ArrayLike, **parameters: ArrayLike) -> NDArray[np.float64]:
+def lookback_gyr(redshifts: ArrayLike, **parameters: Any) -> NDArray[np.float64]:
     """Lookback times in Gyr, shape (n, n_z); keywords as in :func:`expansion_history`."""
     return expansion_history(redshifts=redshifts, **parameters).lookback_gyr
 
@@ -74,7 +75,7 @@ def summarise_chains(
     *,
     levels: Sequence[float] = (0.68, 0.95),
     model: ModelSettings | None = None,
-    **read_options: object,
+    **read_options: Any,
 ) -> RunResult:
     """Read chain files, derive ages and times, and summarise them (nothing is written).
 

@@ -18,7 +18,7 @@ Conventions (H0 in km/s/Mpc, masses in eV, temperatures in K):
 from __future__ import annotations
 
 import dataclasses
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -79,7 +79,7 @@ class Background:
 
     def take(self, index: NDArray[np.intp] | slice) -> Background:
         """Subset of the samples (same model settings)."""
-        fields = {}
+        fields: dict[str, Any] = {}
         for field in dataclasses.fields(self):
             value = getattr(self, field.name)
             fields[field.name] = value[index] if isinstance(value, np.ndarray) else value
@@ -109,7 +109,7 @@ class Background:
         )
         need_log = self.n_massive > 0 and self.radiation == "full"
         evolving = self.has_dark_energy_evolution
-        ln_a = np.log(a) if (need_log or evolving) else None
+        ln_a = np.log(a) if (need_log or evolving) else np.empty(0)
         if evolving:
             w0, wa = column(self.w0), column(self.wa)
             total += column(self.omega_de) * np.exp(
@@ -131,7 +131,7 @@ class Background:
         a = np.asarray(a, dtype=float)
         need_log = self.n_massive > 0 and self.radiation == "full"
         evolving = self.has_dark_energy_evolution
-        ln_a = np.log(a) if (need_log or evolving) else None
+        ln_a = np.log(a) if (need_log or evolving) else np.empty(0)
         terms = [(self.omega_cb, a), (self.omega_k, a * a)]
         if not evolving:
             terms.append((self.omega_de, a**4))

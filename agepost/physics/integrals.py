@@ -69,7 +69,7 @@ def conformal_map(background: Background) -> tuple[NDArray, NDArray]:
     return alpha, np.where((alpha <= 0) & (beta <= 0), 1.0, beta)
 
 
-def _v_of_a(a: NDArray, alpha: NDArray, beta: NDArray) -> NDArray:
+def _v_of_a(a: NDArray, alpha: NDArray | float, beta: NDArray | float) -> NDArray:
     """Inverse of a = alpha v^2 + beta v on v >= 0 (stable form, alpha >= 0)."""
     return 2.0 * a / (beta + np.sqrt(beta * beta + 4.0 * alpha * a))
 

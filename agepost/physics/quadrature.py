@@ -91,9 +91,10 @@ def integrate_panels(
     hi = upper.ravel().astype(float)
     nonempty = hi > lo
     panel, lo, hi = panel[nonempty], lo[nonempty], hi[nonempty]
-    allowed_per_length = allowed_total = None
+    allowed_per_length = np.zeros((n_total, n_integrands))
+    allowed_total = np.zeros((n_total, n_integrands))
     n_evaluations = 0
-    for _ in range(max_halvings + 1):
+    for depth in range(max_halvings + 1):
         if panel.size == 0:
             break
         half = 0.5 * (hi - lo)
@@ -104,10 +105,8 @@ def integrate_panels(
         estimate = sums[..., 0] * half[:, None]
         error = np.max(np.abs(sums[..., 1:]), axis=-1) * half[:, None]
         error = np.where(required[panel % n_panels], error, 0.0)
-        if allowed_total is None:
-            allowed_total = np.zeros((n_total, n_integrands))
+        if depth == 0:
             allowed_total[panel] = tail_tolerance * np.abs(estimate)
-            allowed_per_length = np.zeros((n_total, n_integrands))
             allowed_per_length[panel] = allowed_total[panel] / (hi - lo)[:, None]
         done = np.all(error <= allowed_per_length[panel] * (hi - lo)[:, None], axis=1)
         pending = np.zeros((n_total, n_integrands))

@@ -111,7 +111,7 @@ def expansion_history(
         )
         exclusion[part] = codes
         cumulative_time[part] = np.cumsum(time_panels, axis=1)
-        if distance_from_today is not None:
+        if distance_from_today is not None and distance_panels is not None:
             from_today = np.cumsum(distance_panels[:, ::-1], axis=1)[:, ::-1]
             distance_from_today[part] = np.concatenate(
                 [from_today[:, 1:], np.zeros((part.size, 1))], axis=1
