@@ -214,8 +214,8 @@ def check_covariance(
         row, col = np.unravel_index(int(np.argmax(asymmetry)), matrix.shape)
         raise InputError(
             f"{source}: covariance is not symmetric: entry ({row + 1}, {col + 1}) = "
-            f"{matrix[row, col]!r} "
-            f"but ({col + 1}, {row + 1}) = {matrix[col, row]!r}; check the file's row order"
+            f"{float(matrix[row, col])!r} "
+            f"but ({col + 1}, {row + 1}) = {float(matrix[col, row])!r}; check the file's row order"
         )
     if not positive_definite:
         return
@@ -331,9 +331,9 @@ def _checked(
         bad |= (values <= minimum) if strict else (values < minimum)
     if np.any(bad):
         row = int(np.flatnonzero(bad)[0])
-        bound = "" if minimum is None else f" (it must be {'>' if strict else '>='} {minimum:g})"
+        bound = "" if minimum is None else f": it must be {'>' if strict else '>='} {minimum:g}"
         raise InputError(
-            f"{path} line {lines[row]}: column {column!r} holds {values[row]!r}, "
+            f"{path} line {lines[row]}: column {column!r} holds {float(values[row])!r}, "
             f"which is not {what}{bound}; "
             "fix or remove that row"
         )
