@@ -11,7 +11,7 @@ from pathlib import Path
 from agepost.errors import ConfigError
 from agepost.fit.data import load_distance_data
 from agepost.fit.likelihood import Posterior
-from agepost.fit.products import fit_warnings, run_config_text, summary_record
+from agepost.fit.products import FitWarning, fit_warnings, run_config_text, summary_record
 from agepost.fit.sampler import run_chain
 from agepost.fit.settings import load_fit_config
 from agepost.outputs import OutputFolder
@@ -104,7 +104,7 @@ def fit(args: argparse.Namespace) -> int:
         ),
     )
     for message in messages:
-        warnings.warn(message, stacklevel=2)
+        warnings.warn(message, FitWarning, stacklevel=2)
     logger.info(
         "%d steps x %d walkers, tau %s, acceptance %.2f, %s; wrote %s, %s and %s in %s",
         result.iterations,

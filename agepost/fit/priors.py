@@ -215,7 +215,7 @@ class FitModel:
         return values
 
     def fixed_values(self) -> dict[str, float]:
-        """Fixed and defaulted parameters (all but the free ones), for provenance and run configs."""
+        """Fixed and defaulted parameters (all but the free ones), for provenance."""
         merged = {**DEFAULT_VALUES, **self.fixed}
         return {name: float(value) for name, value in merged.items() if name not in self.names}
 

@@ -28,6 +28,10 @@ ACCEPTANCE_RANGE = (0.1, 0.9)
 NUISANCE = ("r_d",)
 
 
+class FitWarning(UserWarning):
+    """A fit finished but its chain is weak (not converged, odd acceptance); see the summary."""
+
+
 def fit_warnings(result: ChainResult, settings: SamplerSettings) -> list[str]:
     """Sentences about anything that weakens the chain (empty when all is well)."""
     messages = []

@@ -14,7 +14,9 @@ from agepost.physics.times import expansion_history
 TRUTH = {"H0": 68.0, "Omega_m": 0.32, "w0": -0.9, "r_d": 148.0}
 
 
-def synthetic_data(rng: np.random.Generator, *, n_mu: int = 120, noise: bool = True) -> list[DistanceData]:
+def synthetic_data(
+    rng: np.random.Generator, *, n_mu: int = 120, noise: bool = True
+) -> list[DistanceData]:
     """Distance moduli (with a correlated covariance and an offset of -19.3 mag), H(z) and D/r_d."""
     background = make_background(h0=TRUTH["H0"], omega_m=TRUTH["Omega_m"], w0=TRUTH["w0"])
     scale = 1.0 if noise else 0.0
@@ -38,7 +40,9 @@ def synthetic_data(rng: np.random.Generator, *, n_mu: int = 120, noise: bool = T
     return [
         DistanceData("distance_modulus", "mu", z_mu, mu, covariance, None, {}),
         DistanceData("expansion_rate", "H", z_h, h, np.diag(h_errors**2), None, {}),
-        DistanceData("sound_horizon_ratio", "ratio", z_r, ratio, np.diag(r_errors**2), quantities, {}),
+        DistanceData(
+            "sound_horizon_ratio", "ratio", z_r, ratio, np.diag(r_errors**2), quantities, {}
+        ),
     ]
 
 

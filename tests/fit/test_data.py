@@ -15,32 +15,43 @@ def write(path, text):
 
 
 def test_csv_and_whitespace_tables_read_alike_in_file_order(tmp_path):
-    csv = write(tmp_path / "a.csv", "# comment\nz,mu,mu_err\n0.5,42.1,0.1\n0.1,38.2,0.2\n0.5,42.0,0.1  # dup\n")
+    csv = write(
+        tmp_path / "a.csv",
+        "# comment\nz,mu,mu_err\n0.5,42.1,0.1\n0.1,38.2,0.2\n0.5,42.0,0.1  # dup\n",
+    )
     txt = write(tmp_path / "a.txt", "z mu mu_err\n\n0.5 42.1 0.1\n0.1 38.2 0.2\n0.5 42.0 0.1\n")
     a = load_distance_data(csv, kind="distance_modulus")
     b = load_distance_data(txt, kind="distance_modulus")
     # unsorted and duplicate redshifts are kept as given (row order = covariance order)
     np.testing.assert_array_equal(a.redshifts, [0.5, 0.1, 0.5])
     np.testing.assert_array_equal(a.values, b.values)
-    np.testing.assert_allclose(a.covariance, np.diag([0.01, 0.04, 0.01]), rtol=1e-15)  # err**2, rounding only
+    np.testing.assert_allclose(
+        a.covariance, np.diag([0.01, 0.04, 0.01]), rtol=1e-15
+    )  # err**2, rounding only
     assert set(a.checksums) == {str(csv)}
 
 
 def test_columns_can_be_renamed(tmp_path):
     path = write(tmp_path / "h.csv", "redshift,hz,sigma\n0.3,75,5\n")
-    data = load_distance_data(path, kind="expansion_rate", columns={"z": "redshift", "value": "hz", "error": "sigma"})
+    data = load_distance_data(
+        path, kind="expansion_rate", columns={"z": "redshift", "value": "hz", "error": "sigma"}
+    )
     assert data.values.tolist() == [75.0] and data.covariance.tolist() == [[25.0]]
 
 
 def test_ratio_rows_carry_their_quantity(tmp_path):
-    path = write(tmp_path / "r.csv", "z,quantity,ratio,ratio_err\n0.5,DM,13.0,0.2\n0.5,DH,20.0,0.5\n")
+    path = write(
+        tmp_path / "r.csv", "z,quantity,ratio,ratio_err\n0.5,DM,13.0,0.2\n0.5,DH,20.0,0.5\n"
+    )
     data = load_distance_data(path, kind="sound_horizon_ratio")
     assert data.quantities == ("DM", "DH")
 
 
 def test_bad_ratio_quantity_names_the_line(tmp_path):
     path = write(tmp_path / "r.csv", "z,quantity,ratio,ratio_err\n0.5,DA,13.0,0.2\n")
-    with pytest.raises(InputError, match=r"r.csv line 2: column 'quantity' holds 'DA'; use one of DM, DV, DH"):
+    with pytest.raises(
+        InputError, match=r"r.csv line 2: column 'quantity' holds 'DA'; use one of DM, DV, DH"
+    ):
         load_distance_data(path, kind="sound_horizon_ratio")
 
 
@@ -88,7 +99,9 @@ def test_full_covariance_replaces_or_adds_to_the_errors(tmp_path):
     cov = write(tmp_path / "cov.txt", "2\n0.02 0.01\n0.01 0.05\n")  # leading size accepted
     full = load_distance_data(table, kind="distance_modulus", covariance_path=cov)
     np.testing.assert_array_equal(full.covariance, [[0.02, 0.01], [0.01, 0.05]])
-    added = load_distance_data(table, kind="distance_modulus", covariance_path=cov, covariance_includes_errors=False)
+    added = load_distance_data(
+        table, kind="distance_modulus", covariance_path=cov, covariance_includes_errors=False
+    )
     np.testing.assert_allclose(added.covariance, [[0.03, 0.01], [0.01, 0.09]], rtol=1e-15)
     assert set(added.checksums) == {str(table), str(cov)}
 
@@ -106,7 +119,10 @@ def test_covariance_from_npy_without_pickles(tmp_path):
 @pytest.mark.parametrize(
     ("text", "pattern"),
     [
-        ("1 0\n0 1\n0 0\n", r"covariance holds 6 numbers but table.csv has 2 rows; give a 2 x 2 matrix"),
+        (
+            "1 0\n0 1\n0 0\n",
+            r"covariance holds 6 numbers but table.csv has 2 rows; give a 2 x 2 matrix",
+        ),
         ("1 0 0\n0 1 0\n0 0 1\n", r"covariance holds 3 x 3 but table.csv has 2 rows"),
         ("1 0.5\n0.4 1\n", r"not symmetric: entry \(1, 2\) = 0.5 but \(2, 1\) = 0.4"),
         ("1 2\n2 1\n", r"not positive definite \(Cholesky factorisation fails at row 2\)"),
@@ -126,5 +142,7 @@ def test_singular_systematics_pass_once_the_errors_are_added(tmp_path):
     rank_one = write(tmp_path / "sys.txt", "0.01 0.01\n0.01 0.01\n")  # semi-definite alone
     with pytest.raises(InputError, match="not positive definite"):
         load_distance_data(table, kind="distance_modulus", covariance_path=rank_one)
-    data = load_distance_data(table, kind="distance_modulus", covariance_path=rank_one, covariance_includes_errors=False)
+    data = load_distance_data(
+        table, kind="distance_modulus", covariance_path=rank_one, covariance_includes_errors=False
+    )
     check_covariance(data.covariance, source="sum")  # does not raise

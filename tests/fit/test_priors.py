@@ -14,14 +14,19 @@ from agepost.fit.priors import FitModel, FreeParameter, Prior
 
 @pytest.mark.parametrize(
     "prior",
-    [Prior("uniform", 50.0, 90.0), Prior("gaussian", mean=0.3, sd=0.05),
-     Prior("gaussian", minimum=0.0, maximum=0.35, mean=0.3, sd=0.05)],
+    [
+        Prior("uniform", 50.0, 90.0),
+        Prior("gaussian", mean=0.3, sd=0.05),
+        Prior("gaussian", minimum=0.0, maximum=0.35, mean=0.3, sd=0.05),
+    ],
 )
 def test_prior_densities_are_normalised(prior):
     # scipy.integrate.quad of exp(log density) over the support must be 1
     lo = prior.minimum if math.isfinite(prior.minimum) else prior.mean - 12 * prior.sd
     hi = prior.maximum if math.isfinite(prior.maximum) else prior.mean + 12 * prior.sd
-    total, _ = integrate.quad(lambda x: math.exp(prior.log_density(np.array([x]))[0]), lo, hi, epsabs=1e-12)
+    total, _ = integrate.quad(
+        lambda x: math.exp(prior.log_density(np.array([x]))[0]), lo, hi, epsabs=1e-12
+    )
     assert total == pytest.approx(1.0, abs=1e-9)
     assert prior.log_density(np.array([hi + 1.0]))[0] == -np.inf or not math.isfinite(prior.maximum)
 
@@ -40,7 +45,10 @@ def test_gaussian_log_density_matches_the_normal_formula():
         ({"kind": "flat", "minimum": 0, "maximum": 1}, "prior 'flat' is unknown"),
         ({"kind": "uniform", "minimum": 1, "maximum": 1}, r"prior range \[1, 1\] is empty"),
         ({"kind": "uniform", "minimum": 0}, "a uniform prior needs finite min and max"),
-        ({"kind": "gaussian", "mean": 0.0, "sd": -1.0}, "a gaussian prior needs a finite mean and sd > 0"),
+        (
+            {"kind": "gaussian", "mean": 0.0, "sd": -1.0},
+            "a gaussian prior needs a finite mean and sd > 0",
+        ),
     ],
 )
 def test_bad_priors(kwargs, pattern):
@@ -49,7 +57,9 @@ def test_bad_priors(kwargs, pattern):
 
 
 def test_prior_range_excluding_the_start_is_refused():
-    with pytest.raises(ConfigError, match=r"start value 95.0 of H0 lies outside its prior range \[50.0, 90.0\]"):
+    with pytest.raises(
+        ConfigError, match=r"start value 95.0 of H0 lies outside its prior range \[50.0, 90.0\]"
+    ):
         FreeParameter("H0", Prior("uniform", 50.0, 90.0), 95.0)
 
 
@@ -68,10 +78,19 @@ def test_model_needs_a_free_parameter_and_known_names():
 
 
 def test_values_fill_fixed_and_default_parameters():
-    model = FitModel((FreeParameter("Omega_m", Prior("uniform", 0.0, 1.0), 0.3),), {"H0": 67.0, "w0": -0.9})
+    model = FitModel(
+        (FreeParameter("Omega_m", Prior("uniform", 0.0, 1.0), 0.3),), {"H0": 67.0, "w0": -0.9}
+    )
     values = model.values(np.array([[0.25], [0.35]]))
     np.testing.assert_array_equal(values["Omega_m"], [0.25, 0.35])
     assert values["H0"].tolist() == [67.0, 67.0] and values["w0"].tolist() == [-0.9, -0.9]
     # core defaults: flat, cosmological constant, m_nu 0.06 eV, N_eff 3.044
-    assert model.fixed_values() == {"Omega_k": 0.0, "w0": -0.9, "wa": 0.0, "m_nu": 0.06, "N_eff": 3.044, "H0": 67.0}
+    assert model.fixed_values() == {
+        "Omega_k": 0.0,
+        "w0": -0.9,
+        "wa": 0.0,
+        "m_nu": 0.06,
+        "N_eff": 3.044,
+        "H0": 67.0,
+    }
     np.testing.assert_allclose(model.log_prior(np.array([[0.5], [1.5]])), [0.0, -np.inf])
