@@ -57,7 +57,11 @@ def _texts(value: Any, where: str) -> list[str]:
 
 
 def _burn_in(value: Any, where: str) -> float | int:
-    return _whole(value, where) if isinstance(value, int) and not isinstance(value, bool) else _number(value, where)
+    return (
+        _whole(value, where)
+        if isinstance(value, int) and not isinstance(value, bool)
+        else _number(value, where)
+    )
 
 
 Checker = Callable[[Any, str], Any]
@@ -66,16 +70,34 @@ PATH_KEYS = ("runs", "run", "objects")
 #: Allowed keys of each command table and how each is checked.
 KEYS: dict[str, dict[str, Checker]] = {
     "compare": {
-        "runs": _texts, "labels": _texts, "levels": _numbers, "draws": _whole, "seed": _whole,
-        "band_samples": _whole, "z_max": _number, "z": _numbers, "burn_in": _burn_in,
+        "runs": _texts,
+        "labels": _texts,
+        "levels": _numbers,
+        "draws": _whole,
+        "seed": _whole,
+        "band_samples": _whole,
+        "z_max": _number,
+        "z": _numbers,
+        "burn_in": _burn_in,
     },
     "confront": {
-        "run": _text, "objects": _text, "levels": _numbers, "seed": _whole, "band_samples": _whole,
-        "z_max": _number, "burn_in": _burn_in,
+        "run": _text,
+        "objects": _text,
+        "levels": _numbers,
+        "seed": _whole,
+        "band_samples": _whole,
+        "z_max": _number,
+        "burn_in": _burn_in,
     },
     "reweight": {
-        "run": _text, "kind": _text, "age_gyr": _number, "age_err_gyr": _number, "ess_floor": _number,
-        "levels": _numbers, "z": _numbers, "burn_in": _burn_in,
+        "run": _text,
+        "kind": _text,
+        "age_gyr": _number,
+        "age_err_gyr": _number,
+        "ess_floor": _number,
+        "levels": _numbers,
+        "z": _numbers,
+        "burn_in": _burn_in,
     },
 }
 

@@ -69,7 +69,9 @@ def object_ages(obj: AgedObject, n: int, rng: np.random.Generator) -> NDArray[np
     if obj.kind == "lower_limit":
         return obj.age_gyr
     low = -obj.age_gyr / obj.age_err_gyr
-    return stats.truncnorm.rvs(low, np.inf, loc=obj.age_gyr, scale=obj.age_err_gyr, size=n, random_state=rng)
+    return stats.truncnorm.rvs(
+        low, np.inf, loc=obj.age_gyr, scale=obj.age_err_gyr, size=n, random_state=rng
+    )
 
 
 def check_range(objects: Sequence[AgedObject], z_max: float) -> None:
@@ -77,7 +79,8 @@ def check_range(objects: Sequence[AgedObject], z_max: float) -> None:
     for obj in objects:
         if obj.z > z_max:
             raise InputError(
-                f"object {obj.name!r} at z = {obj.z:g} lies beyond the computed range 0 <= z <= {z_max:g}; "
+                f"object {obj.name!r} at z = {obj.z:g} lies beyond the computed range "
+                f"0 <= z <= {z_max:g}; "
                 f"raise --z-max (or z_max in the [confront] table) to at least {obj.z:g}"
             )
 
@@ -124,7 +127,10 @@ def _verdict(
         formation = summarise(z_formation[exists], w[exists], run.chain_id[exists], levels=levels)
         notes += [f"formation_z: {text}" for text in formation.warnings]
     else:
-        notes.append("no sample leaves time to form the object: it is older than every sampled universe at its redshift")
+        notes.append(
+            "no sample leaves time to form the object: it is older than every sampled "
+            "universe at its redshift"
+        )
     return ObjectVerdict(
         obj=obj,
         universe_time=summarise(t_object, w, run.chain_id, levels=levels),

@@ -46,9 +46,11 @@ MAX_STEPS = 60
 _STEP_RTOL = 1e-13
 
 
-def cosmic_time_table(
-    background: Background, redshifts: ArrayLike
-) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+#: Scale factors (k,), cosmic times (n, k) in Gyr and exclusion codes (n,) of a table.
+TimeTable = tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.int8]]
+
+
+def cosmic_time_table(background: Background, redshifts: ArrayLike) -> TimeTable:
     """Cosmic times at the table nodes, ordered by increasing scale factor from ``a = 0``.
 
     Parameters
@@ -66,14 +68,18 @@ def cosmic_time_table(
     decades = np.log10(TOP_ONE_PLUS_Z)
     ladder = np.logspace(0.0, decades, int(NODES_PER_DECADE * decades) + 1) - 1.0
     z_min = float(z_req.min()) if z_req.size else 0.0
-    z_nodes = np.unique(np.concatenate([ladder[ladder >= z_min], z_req, [0.0]]))[::-1]  # increasing a
+    z_nodes = np.unique(np.concatenate([ladder[ladder >= z_min], z_req, [0.0]]))[
+        ::-1
+    ]  # increasing a
     history = expansion_history(background, z_nodes)
     scale_factors = np.concatenate([[0.0], 1.0 / (1.0 + z_nodes)])
     times = np.concatenate([np.zeros((background.size, 1)), history.cosmic_time_gyr], axis=1)
     return scale_factors, times, history.exclusion
 
 
-def _panel_time(background: Background, rows: NDArray[np.intp], s_low: NDArray, s: NDArray) -> NDArray:
+def _panel_time(
+    background: Background, rows: NDArray[np.intp], s_low: NDArray, s: NDArray
+) -> NDArray:
     """``t_H integral_{s_low}^{s} 2 u^3 / sqrt(D(u^2)) du`` per row (Gyr)."""
     nodes, weights = np.polynomial.legendre.leggauss(GAUSS_NODES)
     half = 0.5 * (s - s_low)
@@ -110,7 +116,9 @@ def solve_scale_factor(
         return result
     table = time_gyr[rows]
     if np.any(target[rows] > table[:, -1] * (1 + 1e-12)):
-        raise ComputationError("a formation time lies after the object's own time; the table is wrong")
+        raise ComputationError(
+            "a formation time lies after the object's own time; the table is wrong"
+        )
     upper = np.minimum(np.sum(table < target[rows, None], axis=1), table.shape[1] - 1)
     lower = upper - 1
     s_nodes = np.sqrt(scale_factors)
@@ -146,7 +154,7 @@ def formation_redshift(
     z_object: float,
     age_gyr: ArrayLike,
     *,
-    table: tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]] | None = None,
+    table: TimeTable | None = None,
 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Formation redshift of an object at ``z_object`` with age ``age_gyr`` (scalar or (n,)).
 

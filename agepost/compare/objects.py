@@ -49,21 +49,31 @@ def read_objects(path: str | Path) -> list[AgedObject]:
         raise InputError(f"objects file {path} does not exist; check the path") from None
     except (OSError, UnicodeDecodeError) as error:
         raise InputError(f"objects file {path} cannot be read as text: {error}") from None
-    numbered = [(i, line) for i, line in enumerate(text.splitlines(), 1) if line.strip() and not line.lstrip().startswith("#")]
+    numbered = [
+        (i, line)
+        for i, line in enumerate(text.splitlines(), 1)
+        if line.strip() and not line.lstrip().startswith("#")
+    ]
     if not numbered:
-        raise InputError(f"objects file {path} is empty; give a header row {','.join(REQUIRED)},kind and one row per object")
+        raise InputError(
+            f"objects file {path} is empty; give a header row {','.join(REQUIRED)},kind "
+            "and one row per object"
+        )
     reader = csv.reader(io.StringIO("\n".join(line for _, line in numbered)))
     header = [cell.strip() for cell in next(reader)]
     missing = [c for c in REQUIRED if c not in header]
     if missing:
         raise InputError(
-            f"objects file {path}: column {missing[0]!r} is missing (header has {', '.join(header)}); "
+            f"objects file {path}: column {missing[0]!r} is missing "
+            f"(header has {', '.join(header)}); "
             f"the columns are {', '.join(REQUIRED)} and optionally kind"
         )
     objects: list[AgedObject] = []
     for (line_number, _), cells in zip(numbered[1:], reader, strict=True):
         if len(cells) != len(header):
-            raise InputError(f"{path} line {line_number}: {len(cells)} cells for {len(header)} columns")
+            raise InputError(
+                f"{path} line {line_number}: {len(cells)} cells for {len(header)} columns"
+            )
         row = dict(zip(header, (c.strip() for c in cells), strict=True))
         objects.append(_parse_row(row, f"{path} line {line_number}"))
     if not objects:
@@ -71,7 +81,9 @@ def read_objects(path: str | Path) -> list[AgedObject]:
     names = [o.name for o in objects]
     duplicate = next((n for n in names if names.count(n) > 1), None)
     if duplicate is not None:
-        raise InputError(f"objects file {path}: the name {duplicate!r} appears twice; names must be unique")
+        raise InputError(
+            f"objects file {path}: the name {duplicate!r} appears twice; names must be unique"
+        )
     return objects
 
 
@@ -98,7 +110,9 @@ def _parse_row(row: dict[str, str], where: str) -> AgedObject:
         raise InputError(f"{where}, column z: {z} is negative; redshifts are >= 0")
     age = _number(row, "age_gyr", where)
     if age <= 0:
-        raise InputError(f"{where}, column age_gyr: {age} Gyr is not a positive age; give the age in Gyr")
+        raise InputError(
+            f"{where}, column age_gyr: {age} Gyr is not a positive age; give the age in Gyr"
+        )
     if kind == "lower_limit":
         err = _number(row, "age_err_gyr", where) if row["age_err_gyr"] else 0.0
         if err != 0:
@@ -108,7 +122,10 @@ def _parse_row(row: dict[str, str], where: str) -> AgedObject:
             )
     else:
         if not row["age_err_gyr"]:
-            raise InputError(f"{where}, column age_err_gyr: empty; a gaussian age needs its one-sigma error in Gyr")
+            raise InputError(
+                f"{where}, column age_err_gyr: empty; a gaussian age needs its one-sigma "
+                "error in Gyr"
+            )
         err = _number(row, "age_err_gyr", where)
         if err <= 0:
             raise InputError(f"{where}, column age_err_gyr: {err} must be > 0 for a gaussian age")

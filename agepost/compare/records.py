@@ -31,12 +31,19 @@ def unit_of(name: str, comparison: RunComparison) -> str:
 def intervals_record(intervals: dict[str, IntervalSummary]) -> dict[str, dict[str, Any]]:
     """``{"0.68": {"equal_tail": [lo, hi], "hpd": [lo, hi], "upper": x, "lower": x}}``."""
     return {
-        key: {"equal_tail": list(item.equal_tail), "hpd": list(item.hpd), "upper": item.upper, "lower": item.lower}
+        key: {
+            "equal_tail": list(item.equal_tail),
+            "hpd": list(item.hpd),
+            "upper": item.upper,
+            "lower": item.lower,
+        }
         for key, item in intervals.items()
     }
 
 
-def difference_record(summary: DifferenceSummary, *, unit: str, first: str, second: str) -> dict[str, Any]:
+def difference_record(
+    summary: DifferenceSummary, *, unit: str, first: str, second: str
+) -> dict[str, Any]:
     """Record of one pair's difference ``second - first``."""
     return {
         "first": first,
@@ -81,7 +88,10 @@ def run_record(run: LoadedRun) -> dict[str, Any]:
 def comparison_record(comparison: RunComparison, runs: list[LoadedRun]) -> dict[str, Any]:
     """The body of ``comparison.json`` (the command adds bands, inputs and settings)."""
     sections: dict[str, dict[str, Any]] = {"quantities": {}, "parameters": {}}
-    for section, names in (("quantities", comparison.quantities), ("parameters", comparison.parameters)):
+    for section, names in (
+        ("quantities", comparison.quantities),
+        ("parameters", comparison.parameters),
+    ):
         for name in names:
             unit = unit_of(name, comparison)
             sections[section][name] = {
@@ -102,11 +112,13 @@ def comparison_record(comparison: RunComparison, runs: list[LoadedRun]) -> dict[
         "pairs": {key: {"first": a, "second": b} for key, (a, b) in comparison.pairs.items()},
         **sections,
         "resampling": {
-            "method": "systematic resampling of each run by weight, second run's draws randomly permuted",
+            "method": "systematic resampling of each run by weight, second run's draws "
+            "randomly permuted",
             "n_draws": comparison.n_draws,
             "seed": comparison.seed,
         },
-        "warnings": [note for run in runs if (note := left_out_note(run))] + comparison_warnings(comparison),
+        "warnings": [note for run in runs if (note := left_out_note(run))]
+        + comparison_warnings(comparison),
     }
 
 
@@ -127,8 +139,8 @@ def comparison_warnings(comparison: RunComparison) -> list[str]:
         for name, summary in comparison.summaries[label].items():
             notes += [f"{label} {name}: {text}" for text in summary.warnings]
     for name, pairs in comparison.differences.items():
-        for key, summary in pairs.items():
-            notes += [f"{name} ({key}): {text}" for text in summary.warnings]
+        for key, difference in pairs.items():
+            notes += [f"{name} ({key}): {text}" for text in difference.warnings]
     return notes
 
 
@@ -151,8 +163,17 @@ def comparison_csv(comparison: RunComparison) -> str:
         for summary in comparison.summaries[label].values():
             keys += [k for k in summary.intervals if k not in keys]
     header = ["quantity", "unit", "row", "label", "median"]
-    header += [f"{field}_{key}" for key in keys for field in ("equal_tail_lo", "equal_tail_hi", "hpd_lo", "hpd_hi")]
-    header += ["prob_same_sign", "tension_sigma", "tension_is_lower_bound", "tension_sigma_gaussian"]
+    header += [
+        f"{field}_{key}"
+        for key in keys
+        for field in ("equal_tail_lo", "equal_tail_hi", "hpd_lo", "hpd_hi")
+    ]
+    header += [
+        "prob_same_sign",
+        "tension_sigma",
+        "tension_is_lower_bound",
+        "tension_sigma_gaussian",
+    ]
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(header)
@@ -160,13 +181,35 @@ def comparison_csv(comparison: RunComparison) -> str:
         unit = unit_of(name, comparison)
         for label in comparison.labels:
             summary = comparison.summaries[label][name]
-            writer.writerow([name, unit, "run", label, _number(summary.median), *_ends(summary.intervals, keys), "", "", "", ""])
+            writer.writerow(
+                [
+                    name,
+                    unit,
+                    "run",
+                    label,
+                    _number(summary.median),
+                    *_ends(summary.intervals, keys),
+                    "",
+                    "",
+                    "",
+                    "",
+                ]
+            )
         for key, difference in comparison.differences[name].items():
-            writer.writerow([
-                name, unit, "shift", key, _number(difference.median), *_ends(difference.intervals, keys),
-                _number(difference.prob_same_sign), _number(difference.tension_sigma),
-                str(difference.tension_is_lower_bound).lower(), _number(difference.tension_sigma_gaussian),
-            ])
+            writer.writerow(
+                [
+                    name,
+                    unit,
+                    "shift",
+                    key,
+                    _number(difference.median),
+                    *_ends(difference.intervals, keys),
+                    _number(difference.prob_same_sign),
+                    _number(difference.tension_sigma),
+                    str(difference.tension_is_lower_bound).lower(),
+                    _number(difference.tension_sigma_gaussian),
+                ]
+            )
     return buffer.getvalue()
 
 
@@ -190,7 +233,9 @@ def verdict_record(verdict: ObjectVerdict) -> dict[str, Any]:
         "universe_age_at_z": quantity_record(verdict.universe_time, unit="Gyr"),
         "p_universe_younger": verdict.p_universe_younger,
         "p_universe_younger_mcse": verdict.p_universe_younger_mcse,
-        "formation_z": None if verdict.formation_z is None else quantity_record(verdict.formation_z, unit=""),
+        "formation_z": None
+        if verdict.formation_z is None
+        else quantity_record(verdict.formation_z, unit=""),
         "formation_z_is_lower_bound": obj.kind == "lower_limit",
         "frac_no_formation": verdict.frac_no_formation,
         "warnings": list(verdict.warnings),
@@ -198,7 +243,7 @@ def verdict_record(verdict: ObjectVerdict) -> dict[str, Any]:
 
 
 def reweight_record(result: Reweighted, run: LoadedRun, *, ess_floor: float) -> dict[str, Any]:
-    """The body of ``reweight.json``: constraint, ESS before and after, summaries before and after."""
+    """The body of ``reweight.json``: constraint, ESS and summaries before and after."""
     constraint = result.constraint
     sections: dict[str, dict[str, Any]] = {"quantities": {}, "parameters": {}}
     for name, before in result.before.items():

@@ -50,11 +50,15 @@ class AgeConstraint:
 
     def __post_init__(self) -> None:
         if self.kind not in CONSTRAINT_KINDS:
-            raise ConfigError(f"constraint kind {self.kind!r} is unknown; use lower_limit or gaussian")
+            raise ConfigError(
+                f"constraint kind {self.kind!r} is unknown; use lower_limit or gaussian"
+            )
         if not math.isfinite(self.age_gyr) or self.age_gyr <= 0:
             raise ConfigError(f"constraint age {self.age_gyr} Gyr must be finite and > 0")
         if not math.isfinite(self.age_err_gyr) or self.age_err_gyr < 0:
-            raise ConfigError(f"constraint age error {self.age_err_gyr} Gyr must be finite and >= 0")
+            raise ConfigError(
+                f"constraint age error {self.age_err_gyr} Gyr must be finite and >= 0"
+            )
         if self.kind == "gaussian" and self.age_err_gyr == 0:
             raise ConfigError("a gaussian age constraint needs its one-sigma error (--age-err) > 0")
 
@@ -106,9 +110,10 @@ def reweight_weights(
     new = np.asarray(weights, dtype=np.float64) * constraint.likelihood(t)
     if not np.any(new > 0):
         raise ComputationError(
-            f"the constraint {constraint.describe()} leaves zero effective samples of {where}: every "
-            f"sample has likelihood 0 (sampled ages {t.min():.4g} to {t.max():.4g} Gyr); the run and "
-            "the constraint do not overlap, so reweighting cannot represent their combination"
+            f"the constraint {constraint.describe()} leaves zero effective samples of {where}: "
+            f"every sample has likelihood 0 (sampled ages {t.min():.4g} to {t.max():.4g} Gyr); "
+            "the run and the constraint do not overlap, so reweighting cannot represent "
+            "their combination"
         )
     return new
 
@@ -125,7 +130,9 @@ def reweight_run(
         raise InputError(f"{run.source} has no derived age; derive it first (agepost derive)")
     if not math.isfinite(ess_floor) or ess_floor < 0:
         raise ConfigError(f"the ESS floor {ess_floor} must be finite and >= 0")
-    new = reweight_weights(run.quantities["age"].to_numpy(float), run.weights, constraint, where=run.source)
+    new = reweight_weights(
+        run.quantities["age"].to_numpy(float), run.weights, constraint, where=run.source
+    )
     ess_before, ess_after = kish_ess(run.weights), kish_ess(new)
     notes = []
     if ess_after < ess_floor:
@@ -135,11 +142,15 @@ def reweight_run(
             "sample the combined posterior directly for a trustworthy result"
         )
     names = [("quantities", q) for q in run.quantities.columns] + [
-        ("parameters", p) for p in run.parameters.columns if np.ptp(run.parameters[p].to_numpy(float)) > 0
+        ("parameters", p)
+        for p in run.parameters.columns
+        if np.ptp(run.parameters[p].to_numpy(float)) > 0
     ]
     before, after = {}, {}
     for section, name in names:
-        values = (run.quantities if section == "quantities" else run.parameters)[name].to_numpy(float)
+        values = (run.quantities if section == "quantities" else run.parameters)[name].to_numpy(
+            float
+        )
         before[name] = summarise(values, run.weights, run.chain_id, levels=levels)
         after[name] = summarise(values, new, run.chain_id, levels=levels)
         notes += [f"{name} after reweighting: {text}" for text in after[name].warnings]

@@ -92,7 +92,10 @@ class LoadedRun:
         count = self.n_samples if rows is None else len(rows)
         arrays["h0"] = np.broadcast_to(arrays["h0"], (count,))
         return make_background(
-            **arrays, t_cmb=self.model.t_cmb, n_massive=self.model.n_massive, radiation=self.model.radiation
+            **arrays,
+            t_cmb=self.model.t_cmb,
+            n_massive=self.model.n_massive,
+            radiation=self.model.radiation,
         )
 
 
@@ -117,7 +120,9 @@ def load_runs(
     their own.
     """
     if labels is not None and len(labels) != len(items):
-        raise ConfigError(f"{len(labels)} labels given for {len(items)} runs; give one label per run")
+        raise ConfigError(
+            f"{len(labels)} labels given for {len(items)} runs; give one label per run"
+        )
     names = list(labels) if labels is not None else [default_label(item) for item in items]
     seen: dict[str, str] = {}
     for name, item in zip(names, items, strict=True):
@@ -125,7 +130,8 @@ def load_runs(
             raise ConfigError(f"the label of {item} is empty; give a name with --labels")
         if name in seen:
             raise ConfigError(
-                f"{seen[name]} and {item} are both labelled {name!r}; give distinct names with --labels"
+                f"{seen[name]} and {item} are both labelled {name!r}; "
+                "give distinct names with --labels"
             )
         seen[name] = str(item)
     return [
@@ -151,7 +157,9 @@ def load_run(
     derived = derive(samples, redshifts, model=model)
     keep = derived.kept & (derived.weights > 0)
     _require_rows(keep, str(item))
-    defaults = dict(model.defaults) | {CANONICAL_PARAMETERS[k]: v for k, v in derived.filled.items()}
+    defaults = dict(model.defaults) | {
+        CANONICAL_PARAMETERS[k]: v for k, v in derived.filled.items()
+    }
     return LoadedRun(
         label=label,
         source=samples.source,
@@ -171,7 +179,8 @@ def load_run(
 def _require_rows(keep: NDArray[np.bool_], where: str) -> None:
     if not np.any(keep):
         raise InputError(
-            f"{where}: no sample has a derived value and a positive weight; check the chain and its weights"
+            f"{where}: no sample has a derived value and a positive weight; "
+            "check the chain and its weights"
         )
 
 
@@ -183,7 +192,9 @@ def _read_json(path: Path) -> dict[str, Any]:
             f"{path} is missing; a run folder holds the summary.json that agepost run/derive wrote"
         ) from None
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as error:
-        raise InputError(f"{path} cannot be read as JSON ({error}); rerun agepost run/derive") from None
+        raise InputError(
+            f"{path} cannot be read as JSON ({error}); rerun agepost run/derive"
+        ) from None
     if not isinstance(document, dict):
         raise InputError(f"{path} is not a JSON object; rerun agepost run/derive")
     return document
@@ -198,7 +209,9 @@ def model_from_summary(summary: dict[str, Any], where: Path) -> ModelSettings:
     unknown = [k for k in assumed if k not in CANONICAL_PARAMETERS]
     if unknown:
         raise InputError(f"{where}: model assumes unknown parameter {unknown[0]!r}")
-    defaults = dict(ModelSettings().defaults) | {CANONICAL_PARAMETERS[k]: float(v) for k, v in assumed.items()}
+    defaults = dict(ModelSettings().defaults) | {
+        CANONICAL_PARAMETERS[k]: float(v) for k, v in assumed.items()
+    }
     try:
         return ModelSettings(
             radiation=str(record["radiation"]),
@@ -207,7 +220,9 @@ def model_from_summary(summary: dict[str, Any], where: Path) -> ModelSettings:
             defaults=defaults,
         )
     except (KeyError, TypeError, ValueError) as error:
-        raise InputError(f"{where}: the model record lacks or garbles {error}; rerun agepost run/derive") from None
+        raise InputError(
+            f"{where}: the model record lacks or garbles {error}; rerun agepost run/derive"
+        ) from None
     except ConfigError as error:
         raise InputError(f"{where}: {error.message}") from None
 
@@ -217,7 +232,8 @@ def _load_folder(folder: Path, label: str) -> LoadedRun:
     samples_path = folder / SAMPLES_FILE
     if not samples_path.is_file():
         raise InputError(
-            f"{folder} has no {SAMPLES_FILE}; give an output folder of agepost run/derive or a chain file"
+            f"{folder} has no {SAMPLES_FILE}; give an output folder of agepost run/derive "
+            "or a chain file"
         )
     summary = _read_json(summary_path)
     model = model_from_summary(summary, summary_path)
@@ -225,7 +241,11 @@ def _load_folder(folder: Path, label: str) -> LoadedRun:
     fixed: dict[str, float] = {}
     if provenance_path.is_file():
         read_settings = _read_json(provenance_path).get("settings", {}).get("read", {})
-        fixed = {k: float(v) for k, v in (read_settings.get("fixed") or {}).items() if k in CANONICAL_PARAMETERS}
+        fixed = {
+            k: float(v)
+            for k, v in (read_settings.get("fixed") or {}).items()
+            if k in CANONICAL_PARAMETERS
+        }
     parameters, quantities, weights, chain_id, exclusion = _read_samples(samples_path)
     keep = (exclusion == Exclusion.KEPT) & (weights > 0)
     _require_rows(keep, str(samples_path))
@@ -252,22 +272,36 @@ def _read_samples(path: Path) -> tuple[pd.DataFrame, pd.DataFrame, NDArray, NDAr
             for name in ("parameters", "derived", "weight", "chain_id", "exclusion"):
                 if name not in handle:
                     raise InputError(f"{path} lacks the {name!r} entry; rerun agepost run/derive")
-            parameters = pd.DataFrame({k: handle["parameters"][k][()] for k in handle["parameters"]})
+            parameters = pd.DataFrame(
+                {k: handle["parameters"][k][()] for k in handle["parameters"]}
+            )
             parameters = parameters[[c for c in CANONICAL_PARAMETERS if c in parameters.columns]]
             quantities = pd.DataFrame({k: handle["derived"][k][()] for k in handle["derived"]})
             weights = np.asarray(handle["weight"][()], float)
             chain_id = np.asarray(handle["chain_id"][()], np.int64)
             exclusion = np.asarray(handle["exclusion"][()], np.int8)
     except OSError as error:
-        raise InputError(f"{path} is not a readable HDF5 file ({error}); rerun agepost run/derive") from None
+        raise InputError(
+            f"{path} is not a readable HDF5 file ({error}); rerun agepost run/derive"
+        ) from None
     if "age" in quantities.columns:  # keep the order age, then by redshift as written
-        quantities = quantities[["age", *sorted(set(quantities.columns) - {"age"}, key=_name_order)]]
+        quantities = quantities[
+            ["age", *sorted(set(quantities.columns) - {"age"}, key=_name_order)]
+        ]
     n = weights.size
-    if any(len(frame) not in (0, n) for frame in (parameters, quantities)) or chain_id.size != n or exclusion.size != n:
-        raise InputError(f"{path}: its datasets have different lengths; the file is damaged, rerun the run")
+    if (
+        any(len(frame) not in (0, n) for frame in (parameters, quantities))
+        or chain_id.size != n
+        or exclusion.size != n
+    ):
+        raise InputError(
+            f"{path}: its datasets have different lengths; the file is damaged, rerun the run"
+        )
     bad = np.flatnonzero(~np.isfinite(weights) | (weights < 0))
     if bad.size:
-        raise InputError(f"{path}: weight in row {bad[0]} is {weights[bad[0]]}; weights must be finite and >= 0")
+        raise InputError(
+            f"{path}: weight in row {bad[0]} is {weights[bad[0]]}; weights must be finite and >= 0"
+        )
     return parameters, quantities, weights, chain_id, exclusion
 
 

@@ -91,7 +91,7 @@ def compare_runs(
     if len(runs) < 2:
         raise InputError("compare needs at least two runs")
     quantities, parameters = shared_names(runs)
-    summaries = {run.label: {} for run in runs}
+    summaries: dict[str, dict[str, QuantitySummary]] = {run.label: {} for run in runs}
     for run in runs:
         for name in (*quantities, *parameters):
             summaries[run.label][name] = summarise(
@@ -107,11 +107,19 @@ def compare_runs(
         differences[name] = {}
         for key, (i, j) in pairs.items():
             first, second = runs[i], runs[j]
-            rng = np.random.default_rng(np.random.SeedSequence([seed, i, j, zlib.crc32(name.encode())]))
+            rng = np.random.default_rng(
+                np.random.SeedSequence([seed, i, j, zlib.crc32(name.encode())])
+            )
             differences[name][key] = difference_summary(
-                _column(first, name), first.weights, _column(second, name), second.weights,
-                levels=levels, n_draws=n_draws, rng=rng,
-                ess_first=summaries[first.label][name].ess, ess_second=summaries[second.label][name].ess,
+                _column(first, name),
+                first.weights,
+                _column(second, name),
+                second.weights,
+                levels=levels,
+                n_draws=n_draws,
+                rng=rng,
+                ess_first=summaries[first.label][name].ess,
+                ess_second=summaries[second.label][name].ess,
             )
     return RunComparison(
         labels=tuple(run.label for run in runs),

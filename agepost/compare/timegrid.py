@@ -84,7 +84,8 @@ def check_ages(
         return
     stored = run.quantities["age"].to_numpy(float)[rows]
     bad = np.flatnonzero(
-        (exclusion != Exclusion.KEPT) | ~(np.abs(age_gyr - stored) <= AGE_CHECK_RTOL * np.abs(stored))
+        (exclusion != Exclusion.KEPT)
+        | ~(np.abs(age_gyr - stored) <= AGE_CHECK_RTOL * np.abs(stored))
     )
     if bad.size:
         i = bad[0]

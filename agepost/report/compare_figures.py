@@ -9,6 +9,7 @@ save with :func:`agepost.report.figures.save_figure`.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from typing import Any
 
 import corner
 import numpy as np
@@ -44,7 +45,10 @@ def run_linestyle(index: int) -> str:
 
 def _span(samples: Sequence[Weighted]) -> tuple[float, float]:
     """Union of the central RANGE_FRACTION of each weighted sample."""
-    ends = [weighted_quantile(v, [(1 - RANGE_FRACTION) / 2, (1 + RANGE_FRACTION) / 2], w) for v, w in samples]
+    ends = [
+        weighted_quantile(v, [(1 - RANGE_FRACTION) / 2, (1 + RANGE_FRACTION) / 2], w)
+        for v, w in samples
+    ]
     low, high = min(e[0] for e in ends), max(e[1] for e in ends)
     if high <= low:
         pad = abs(low) * 1e-3 or 1e-3
@@ -83,8 +87,13 @@ def overlaid_marginals_figure(
                 centres, density = density_curve(values, weights)
                 colour = run_colour(index)
                 if centres.size > 1:
-                    ax.plot(centres, density / density.max(), color=colour,
-                            linestyle=run_linestyle(index), label=label)
+                    ax.plot(
+                        centres,
+                        density / density.max(),
+                        color=colour,
+                        linestyle=run_linestyle(index),
+                        label=label,
+                    )
                 median = float(weighted_quantile(values, 0.5, weights))
                 ax.plot([median, median], [0, 0.08], color=colour, linewidth=1.2)
             ax.set_xlim(*_span(list(runs.values())))
@@ -92,7 +101,7 @@ def overlaid_marginals_figure(
             ax.set_yticks([])
             ax.set_xlabel(axis_label)
             ax.tick_params(axis="x", labelsize=5.5)
-        for ax in axes[len(panels):]:
+        for ax in axes[len(panels) :]:
             ax.set_visible(False)
         axes[0].legend(loc="upper left", fontsize=5.5, handlelength=1.8)
         fig.supylabel("posterior density (peak = 1)", fontsize=6.5)
@@ -104,8 +113,14 @@ def _band(ax, x, matrix, weights, levels, colour, linestyle, label):  # noqa: AN
     rows = [0.5] + [p for level in levels for p in ((1 - level) / 2, (1 + level) / 2)]
     edges = weighted_quantile_columns(matrix, rows, weights)
     for i, level in sorted(enumerate(levels), key=lambda item: -item[1]):
-        ax.fill_between(x, edges[1 + 2 * i], edges[2 + 2 * i], color=colour,
-                        alpha=0.6 * style.band_alpha(level), linewidth=0)
+        ax.fill_between(
+            x,
+            edges[1 + 2 * i],
+            edges[2 + 2 * i],
+            color=colour,
+            alpha=0.6 * style.band_alpha(level),
+            linewidth=0,
+        )
     ax.plot(x, edges[0], color=colour, linestyle=linestyle, linewidth=1.0, label=label)
     return edges[0]
 
@@ -143,7 +158,9 @@ def overlaid_bands_figure(
         for index, (label, times) in enumerate(cosmic_times.items()):
             matrix = np.asarray(times, dtype=np.float64)
             if matrix.ndim != 2 or matrix.shape[1] != z.size:
-                raise InputError(f"times of {label} have shape {matrix.shape}; expected (n, {z.size})")
+                raise InputError(
+                    f"times of {label} have shape {matrix.shape}; expected (n, {z.size})"
+                )
             text = label
             if subsample_sizes and label in subsample_sizes:
                 drawn, kept = subsample_sizes[label]
@@ -156,9 +173,13 @@ def overlaid_bands_figure(
         top.set_xlim(x[0], x[-1])
         top.set_ylabel("cosmic time $t(z)$ [Gyr]")
         bands = ", ".join(f"{100 * v:g}%" for v in sorted(levels))
-        top.legend(loc="upper right", fontsize=5.5, title=f"median; {bands} bands", title_fontsize=5.5)
+        top.legend(
+            loc="upper right", fontsize=5.5, title=f"median; {bands} bands", title_fontsize=5.5
+        )
         bottom.axhline(0, color="0.5", linewidth=0.5)
-        bottom.set_ylabel(f"$t(z) - t_{{\\rm {_tex(next(iter(cosmic_times)))}}}(z)$ [Myr]", fontsize=6.5)
+        bottom.set_ylabel(
+            f"$t(z) - t_{{\\rm {_tex(next(iter(cosmic_times)))}}}(z)$ [Myr]", fontsize=6.5
+        )
         bottom.set_xlabel("$1 + z$")
         bottom.xaxis.set_major_formatter(FormatStrFormatter("%g"))
         fig.tight_layout(pad=0.3, h_pad=0.3)
@@ -195,7 +216,8 @@ def overlaid_corner_figure(
     levels = sorted(check_level(level) for level in levels)
     items = list(frames.items())
     columns = [
-        c for c in items[0][1][0].columns
+        c
+        for c in items[0][1][0].columns
         if any(np.ptp(frame[c].to_numpy(float)) > 0 for _, (frame, _) in items)
     ]
     if not columns:
@@ -205,35 +227,69 @@ def overlaid_corner_figure(
     size = min(max(style.COLUMN_WIDTH_IN, 0.85 * len(columns)), style.PAGE_WIDTH_IN)
     with style.house_style():
         fig = fig or Figure(figsize=(size, size))
-        for index, (label, (frame, weights)) in enumerate(items):
-            colour = run_colour(index)
-            corner.corner(
-                frame[columns].to_numpy(float), weights=weights, bins=CORNER_BINS, range=ranges,
-                smooth=1.0, levels=levels, labels=[labels.get(c, c) for c in columns],
-                plot_datapoints=False, plot_density=False, fill_contours=False, color=colour,
-                contour_kwargs={"colors": [colour], "linewidths": 0.8,
-                                "linestyles": run_linestyle(index)},
-                hist_kwargs={"color": colour, "linewidth": 0.9, "linestyle": run_linestyle(index),
-                             "density": True},
-                label_kwargs={"fontsize": 7.5}, max_n_ticks=3, labelpad=0.08, fig=fig,
+        for index, (_, (frame, weights)) in enumerate(items):
+            _corner_layer(
+                fig,
+                frame[columns].to_numpy(float),
+                weights,
+                index,
+                ranges,
+                levels,
+                [labels.get(c, c) for c in columns],
             )
         for ax in fig.axes:
             ax.tick_params(labelsize=6.0, direction="in", length=2.0, width=0.5)
-        for i, column in enumerate(columns):  # each call rescaled the diagonal to its own run
+        for i, column in enumerate(columns):  # each layer rescaled the diagonal to its own run
             peak = max(
-                np.histogram(frame[column].to_numpy(float), bins=CORNER_BINS, range=ranges[i],
-                             weights=weights, density=True)[0].max()
+                np.histogram(
+                    frame[column].to_numpy(float),
+                    bins=CORNER_BINS,
+                    range=ranges[i],
+                    weights=weights,
+                    density=True,
+                )[0].max()
                 for _, (frame, weights) in items
             )
             fig.axes[i * (len(columns) + 1)].set_ylim(0, 1.1 * peak)
         handles = [
-            fig.axes[0].plot([], [], color=run_colour(i), linestyle=run_linestyle(i), label=label)[0]
+            fig.axes[0].plot([], [], color=run_colour(i), linestyle=run_linestyle(i), label=label)[
+                0
+            ]
             for i, (label, _) in enumerate(items)
         ]
         bands = ", ".join(f"{100 * v:g}%" for v in levels)
-        fig.legend(handles=handles, loc="upper right", fontsize=6.5, title=f"{bands} contours",
-                   title_fontsize=6.0)
+        fig.legend(
+            handles=handles,
+            loc="upper right",
+            fontsize=6.5,
+            title=f"{bands} contours",
+            title_fontsize=6.0,
+        )
     return fig
+
+
+def _corner_layer(fig, values, weights, index, ranges, levels, axis_labels) -> None:  # noqa: ANN001
+    """One run's histograms and line contours in its colour and line style."""
+    colour, linestyle = run_colour(index), run_linestyle(index)
+    corner.corner(
+        values,
+        weights=weights,
+        bins=CORNER_BINS,
+        range=ranges,
+        smooth=1.0,
+        levels=levels,
+        labels=axis_labels,
+        plot_datapoints=False,
+        plot_density=False,
+        fill_contours=False,
+        color=colour,
+        contour_kwargs={"colors": [colour], "linewidths": 0.8, "linestyles": linestyle},
+        hist_kwargs={"color": colour, "linewidth": 0.9, "linestyle": linestyle, "density": True},
+        label_kwargs={"fontsize": 7.5},
+        max_n_ticks=3,
+        labelpad=0.08,
+        fig=fig,
+    )
 
 
 def objects_figure(
@@ -269,16 +325,11 @@ def objects_figure(
         fig = fig or Figure(figsize=(style.COLUMN_WIDTH_IN, 2.6))
         ax = fig.add_subplot() if not fig.axes else fig.axes[0]
         bands = ", ".join(f"{100 * v:g}%" for v in sorted(levels))
-        _band(ax, 1 + z, times, None, levels, style.MAIN, "-", f"age of the universe $t(z)$ ({bands})")
-        markers = ("o", "s", "D", "^", "v", "P", "X")
-        for index, (name, z_obj, age, err, kind) in enumerate(objects):
-            common = {"color": style.SECOND if kind == "gaussian" else style.DARK,
-                      "marker": markers[index % len(markers)], "markersize": 3.5, "linestyle": "none",
-                      "capsize": 1.5, "elinewidth": 0.8, "label": name}
-            if kind == "lower_limit":  # an upward arrow a quarter of the age long (log axis)
-                ax.errorbar(1 + z_obj, age, yerr=[[0.0], [0.25 * age]], lolims=True, **common)
-            else:
-                ax.errorbar(1 + z_obj, age, yerr=err, **common)
+        _band(
+            ax, 1 + z, times, None, levels, style.MAIN, "-", f"age of the universe $t(z)$ ({bands})"
+        )
+        for index, item in enumerate(objects):
+            _draw_object(ax, index, *item)
         ax.set_xscale("log")
         ax.set_yscale("log")
         ax.set_xlim(0.93 * (1 + z[0]), 1 + z[-1])
@@ -287,10 +338,35 @@ def objects_figure(
         ax.xaxis.set_major_formatter(FormatStrFormatter("%g"))
         ax.yaxis.set_major_formatter(FormatStrFormatter("%g"))
         n = times.shape[0]
-        ax.set_title(f"{n:,} of {subsample_of:,} samples, drawn by weight" if subsample_of else f"{n:,} samples",
-                     loc="right", fontsize=6.0)
+        ax.set_title(
+            f"{n:,} of {subsample_of:,} samples, drawn by weight"
+            if subsample_of
+            else f"{n:,} samples",
+            loc="right",
+            fontsize=6.0,
+        )
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize=5.5, ncol=2)
     return fig
+
+
+_MARKERS = ("o", "s", "D", "^", "v", "P", "X")
+
+
+def _draw_object(ax, index, name, z_obj, age, err, kind) -> None:  # noqa: ANN001
+    """A point with a one-sigma bar (gaussian) or an upward arrow (lower limit)."""
+    common: dict[str, Any] = {
+        "color": style.SECOND if kind == "gaussian" else style.DARK,
+        "marker": _MARKERS[index % len(_MARKERS)],
+        "markersize": 3.5,
+        "linestyle": "none",
+        "capsize": 1.5,
+        "elinewidth": 0.8,
+        "label": name,
+    }
+    if kind == "lower_limit":  # an upward arrow a quarter of the age long (log axis)
+        ax.errorbar(1 + z_obj, age, yerr=[[0.0], [0.25 * age]], lolims=True, **common)
+    else:
+        ax.errorbar(1 + z_obj, age, yerr=err, **common)
 
 
 def reweight_figure(
@@ -312,4 +388,3 @@ def reweight_figure(
         for label, values, before, after in panels
     ]
     return overlaid_marginals_figure(series, fig=fig)
-

@@ -1,4 +1,4 @@
-"""Shift between two independent weighted posteriors: the posterior of their difference and its tension.
+"""Shift between two independent weighted posteriors: their difference and its tension.
 
 Notation: the ``first`` set holds samples ``x_i`` with weights ``u_i``, the ``second`` set
 samples ``y_j`` with weights ``v_j`` (weights normalised to sum 1); the two are taken as
@@ -193,7 +193,8 @@ def difference_summary(
     notes = []
     if bounded:
         notes.append(
-            f"no resolvable mass of the opposite sign (below 1/(ESS_first ESS_second) = {p_min:.2g}): "
+            "no resolvable mass of the opposite sign "
+            f"(below 1/(ESS_first ESS_second) = {p_min:.2g}): "
             f"the tension is at least {tension:.2f} sigma; longer chains would sharpen it"
         )
     intervals, interval_notes = _intervals(draws, levels, min(n_x, n_y))
@@ -223,7 +224,9 @@ def _paired_differences(
 ) -> NDArray[np.float64]:
     """``n_draws`` differences of independently paired systematic resamples."""
     if int(n_draws) != n_draws or n_draws < 1:
-        raise ConfigError(f"the number of resampled pairs must be a whole number >= 1, got {n_draws!r}")
+        raise ConfigError(
+            f"the number of resampled pairs must be a whole number >= 1, got {n_draws!r}"
+        )
     rows_x = weighted_subsample(u, int(n_draws), rng=rng)
     rows_y = rng.permutation(weighted_subsample(v, int(n_draws), rng=rng))
     return y[rows_y] - x[rows_x]

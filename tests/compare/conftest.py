@@ -52,7 +52,10 @@ def write_chain(path: Path, h0, omega_m, weights=None) -> Path:
     h0 = np.asarray(h0, float)
     omega_m = np.broadcast_to(np.asarray(omega_m, float), h0.shape)
     weights = np.ones_like(h0) if weights is None else np.asarray(weights, float)
-    rows = "".join(f"{float(w)!r} {float(h)!r} {float(m)!r}\n" for w, h, m in zip(weights, h0, omega_m, strict=True))
+    rows = "".join(
+        f"{float(w)!r} {float(h)!r} {float(m)!r}\n"
+        for w, h, m in zip(weights, h0, omega_m, strict=True)
+    )
     path.write_text("weight H0 Omega_m\n" + rows)
     return path
 
@@ -61,7 +64,9 @@ def write_chain(path: Path, h0, omega_m, weights=None) -> Path:
 def chain_file(tmp_path):
     """Factory: a flat LambdaCDM chain of ``n`` Gaussian H0 draws (invented 'Lantern' values)."""
 
-    def make(name: str, *, h0_mean=68.0, h0_sd=1.0, omega_m=0.31, omega_m_sd=0.01, n=600, seed=1) -> Path:
+    def make(
+        name: str, *, h0_mean=68.0, h0_sd=1.0, omega_m=0.31, omega_m_sd=0.01, n=600, seed=1
+    ) -> Path:
         rng = np.random.default_rng(seed)
         h0 = rng.normal(h0_mean, h0_sd, n)
         om = rng.normal(omega_m, omega_m_sd, n) if omega_m_sd else np.full(n, omega_m)
@@ -81,10 +86,22 @@ def run_folder(tmp_path):
         h0 = np.full(n, 70.0) if h0 is None else np.asarray(h0, float)
         parameters = pd.DataFrame({"H0": h0, "Omega_m": np.full(n, 0.3)})
         with DerivedSamplesWriter(folder / "samples.h5") as writer:
-            writer.append(parameters, pd.DataFrame(derived), weights=np.ones(n),
-                          chain_id=np.zeros(n, np.int64), exclusion=np.zeros(n, np.int8))
-        summary = {"redshifts": [], "model": {"radiation": radiation, "t_cmb_k": 2.7255, "n_massive": 1,
-                                              "assumed_for_missing_parameters": {"Omega_k": 0.0, "w0": -1.0}}}
+            writer.append(
+                parameters,
+                pd.DataFrame(derived),
+                weights=np.ones(n),
+                chain_id=np.zeros(n, np.int64),
+                exclusion=np.zeros(n, np.int8),
+            )
+        summary = {
+            "redshifts": [],
+            "model": {
+                "radiation": radiation,
+                "t_cmb_k": 2.7255,
+                "n_massive": 1,
+                "assumed_for_missing_parameters": {"Omega_k": 0.0, "w0": -1.0},
+            },
+        }
         (folder / "summary.json").write_text(json.dumps(summary))
         return folder
 

@@ -53,5 +53,8 @@ def test_paths_are_relative_to_the_config(tmp_path):
     path.parent.mkdir()
     path.write_text("[confront]\nrun = '../runs/x'\nobjects = 'o.csv'\n[output]\nfolder = 'out'\n")
     values = read_command_config(path, "confront")
-    assert values == {"run": str(tmp_path / "runs" / "x"), "objects": str(tmp_path / "sub" / "o.csv"),
-                      "out": str(tmp_path / "sub" / "out")}
+    assert values == {
+        "run": str(tmp_path / "runs" / "x"),
+        "objects": str(tmp_path / "sub" / "o.csv"),
+        "out": str(tmp_path / "sub" / "out"),
+    }

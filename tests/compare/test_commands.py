@@ -15,7 +15,9 @@ import pytest
 
 from agepost.cli import main
 
-OBJECTS = "name,z,age_gyr,age_err_gyr,kind\nOkapi-1,3.2,1.6,0.3,gaussian\nHeron,0,12.0,,lower_limit\n"
+OBJECTS = (
+    "name,z,age_gyr,age_err_gyr,kind\nOkapi-1,3.2,1.6,0.3,gaussian\nHeron,0,12.0,,lower_limit\n"
+)
 
 
 def one_line_error(capsys, fragment: str) -> str:
@@ -30,8 +32,10 @@ def one_line_error(capsys, fragment: str) -> str:
 
 @pytest.fixture
 def two_chains(chain_file):
-    return (chain_file("lantern_lcdm.txt", h0_mean=67.5, n=400, seed=1),
-            chain_file("lantern_shifted.txt", h0_mean=71.0, h0_sd=1.5, n=400, seed=2))
+    return (
+        chain_file("lantern_lcdm.txt", h0_mean=67.5, n=400, seed=1),
+        chain_file("lantern_shifted.txt", h0_mean=71.0, h0_sd=1.5, n=400, seed=2),
+    )
 
 
 @pytest.fixture
@@ -44,8 +48,24 @@ def objects_file(tmp_path):
 @pytest.mark.slow  # draws every figure (a few seconds)
 def test_compare_writes_tables_figures_and_json(two_chains, tmp_path, capsys):
     out = tmp_path / "cmp"
-    args = ["--quiet", "compare", *map(str, two_chains), "--z", "1", "--out", str(out), "--draws", "3000",
-            "--band-samples", "100", "--labels", "A,B", "--json", "--seed", "9"]
+    args = [
+        "--quiet",
+        "compare",
+        *map(str, two_chains),
+        "--z",
+        "1",
+        "--out",
+        str(out),
+        "--draws",
+        "3000",
+        "--band-samples",
+        "100",
+        "--labels",
+        "A,B",
+        "--json",
+        "--seed",
+        "9",
+    ]
     assert main(args) == 0
     printed = json.loads(capsys.readouterr().out)
     written = json.loads((out / "comparison.json").read_text())
@@ -57,7 +77,12 @@ def test_compare_writes_tables_figures_and_json(two_chains, tmp_path, capsys):
     assert written["resampling"]["seed"] == 9
     assert written["time_bands"]["subsample"]["A"] == {"size": 100, "of": 400}
     assert written["provenance"]["inputs"]["A"][0]["sha256"]
-    for name in ("comparison.csv", "comparison_marginals.png", "comparison_times.pdf", "comparison_corner.png"):
+    for name in (
+        "comparison.csv",
+        "comparison_marginals.png",
+        "comparison_times.pdf",
+        "comparison_corner.png",
+    ):
         assert (out / name).stat().st_size > 0
     # A second run refuses to overwrite, in one line, and leaves the files as they were.
     before = (out / "comparison.json").read_bytes()
@@ -90,8 +115,23 @@ def test_compare_usage_errors(two_chains, tmp_path, capsys, extra, fragment):
 
 def test_confront_reports_each_object_by_name(two_chains, objects_file, tmp_path, capsys):
     out = tmp_path / "conf"
-    assert main(["--quiet", "confront", str(two_chains[0]), "--objects", str(objects_file), "--out", str(out),
-                 "--json", "--band-samples", "100"]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "confront",
+                str(two_chains[0]),
+                "--objects",
+                str(objects_file),
+                "--out",
+                str(out),
+                "--json",
+                "--band-samples",
+                "100",
+            ]
+        )
+        == 0
+    )
     record = json.loads(capsys.readouterr().out)
     okapi = record["objects"]["Okapi-1"]
     assert 0 < okapi["p_universe_younger"] < 0.5
@@ -114,7 +154,20 @@ def test_confront_reports_each_object_by_name(two_chains, objects_file, tmp_path
 def test_confront_bad_objects(two_chains, tmp_path, capsys, row, fragment):
     path = tmp_path / "objects.csv"
     path.write_text("name,z,age_gyr,age_err_gyr,kind\n" + row + "\n")
-    assert main(["--quiet", "confront", str(two_chains[0]), "--objects", str(path), "--out", str(tmp_path / "o")]) == 2
+    assert (
+        main(
+            [
+                "--quiet",
+                "confront",
+                str(two_chains[0]),
+                "--objects",
+                str(path),
+                "--out",
+                str(tmp_path / "o"),
+            ]
+        )
+        == 2
+    )
     one_line_error(capsys, fragment)
     assert not (tmp_path / "o").exists()
 
@@ -122,39 +175,117 @@ def test_confront_bad_objects(two_chains, tmp_path, capsys, row, fragment):
 def test_confront_range_can_be_raised(two_chains, tmp_path, capsys):
     path = tmp_path / "objects.csv"
     path.write_text("name,z,age_gyr,age_err_gyr\nFar,25,0.05,0.01\n")
-    assert main(["--quiet", "confront", str(two_chains[0]), "--objects", str(path), "--out", str(tmp_path / "o"),
-                 "--z-max", "30", "--band-samples", "50", "--json"]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "confront",
+                str(two_chains[0]),
+                "--objects",
+                str(path),
+                "--out",
+                str(tmp_path / "o"),
+                "--z-max",
+                "30",
+                "--band-samples",
+                "50",
+                "--json",
+            ]
+        )
+        == 0
+    )
     assert json.loads(capsys.readouterr().out)["objects"]["Far"]["formation_z"]["median"] > 25
 
 
 @pytest.mark.slow  # draws every figure (a few seconds)
-def test_reweight_writes_a_run_folder_that_confront_reads(two_chains, objects_file, tmp_path, capsys):
+def test_reweight_writes_a_run_folder_that_confront_reads(
+    two_chains, objects_file, tmp_path, capsys
+):
     out = tmp_path / "rw"
-    assert main(["--quiet", "reweight", str(two_chains[0]), "--kind", "gaussian", "--age", "14.1",
-                 "--age-err", "0.1", "--out", str(out), "--json", "--ess-floor", "350"]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "reweight",
+                str(two_chains[0]),
+                "--kind",
+                "gaussian",
+                "--age",
+                "14.1",
+                "--age-err",
+                "0.1",
+                "--out",
+                str(out),
+                "--json",
+                "--ess-floor",
+                "350",
+            ]
+        )
+        == 0
+    )
     captured = capsys.readouterr()
     record = json.loads(captured.out)
-    assert record["constraint"] == {"kind": "gaussian", "age_gyr": 14.1, "age_err_gyr": 0.1,
-                                    "description": "t0 = 14.1 +- 0.1 Gyr"}
+    assert record["constraint"] == {
+        "kind": "gaussian",
+        "age_gyr": 14.1,
+        "age_err_gyr": 0.1,
+        "description": "t0 = 14.1 +- 0.1 Gyr",
+    }
     assert record["ess_kish_after"] < record["ess_kish_before"] == 400
-    assert record["quantities"]["age"]["after"]["median"] > record["quantities"]["age"]["before"]["median"]
+    assert (
+        record["quantities"]["age"]["after"]["median"]
+        > record["quantities"]["age"]["before"]["median"]
+    )
     assert record["parameters"]["H0"]["median_shift"] < 0  # an older universe wants a lower H0
     assert any("below the floor 350" in w for w in record["warnings"])
     assert "below the floor 350" in captured.err  # also said where a JSON reader will not look
     assert (out / "reweight_marginals.png").stat().st_size > 0
-    assert main(["--quiet", "confront", str(out), "--objects", str(objects_file), "--out", str(tmp_path / "c"),
-                 "--band-samples", "50"]) == 0
+    assert (
+        main(
+            [
+                "--quiet",
+                "confront",
+                str(out),
+                "--objects",
+                str(objects_file),
+                "--out",
+                str(tmp_path / "c"),
+                "--band-samples",
+                "50",
+            ]
+        )
+        == 0
+    )
 
 
 def test_reweight_leaving_zero_effective_samples(two_chains, tmp_path, capsys):
-    assert main(["--quiet", "reweight", str(two_chains[0]), "--age", "30", "--out", str(tmp_path / "o")]) == 2
+    assert (
+        main(
+            ["--quiet", "reweight", str(two_chains[0]), "--age", "30", "--out", str(tmp_path / "o")]
+        )
+        == 2
+    )
     one_line_error(capsys, "leaves zero effective samples")
     assert not (tmp_path / "o").exists()
 
 
 def test_reweight_needs_an_error_for_a_gaussian(two_chains, tmp_path, capsys):
-    assert main(["--quiet", "reweight", str(two_chains[0]), "--kind", "gaussian", "--age", "13",
-                 "--out", str(tmp_path / "o")]) == 2
+    assert (
+        main(
+            [
+                "--quiet",
+                "reweight",
+                str(two_chains[0]),
+                "--kind",
+                "gaussian",
+                "--age",
+                "13",
+                "--out",
+                str(tmp_path / "o"),
+            ]
+        )
+        == 2
+    )
     one_line_error(capsys, "needs its one-sigma error")
 
 
@@ -162,8 +293,12 @@ def test_reweight_needs_an_error_for_a_gaussian(two_chains, tmp_path, capsys):
 def test_installed_command_runs_in_a_subprocess(run_folder, tmp_path):
     a = run_folder("a", {"lookback_z1": np.linspace(7, 8, 20)})
     b = run_folder("b", {"lookback_z2": np.linspace(10, 11, 20)})
-    done = subprocess.run([sys.executable, "-m", "agepost", "compare", str(a), str(b), "--out", str(tmp_path / "o")],
-                          capture_output=True, text=True, check=False)
+    done = subprocess.run(
+        [sys.executable, "-m", "agepost", "compare", str(a), str(b), "--out", str(tmp_path / "o")],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
     assert done.returncode == 2
     assert done.stderr.strip().startswith("agepost: error: the runs share no derived quantity")
     assert "Traceback" not in done.stderr

@@ -25,8 +25,13 @@ def flat_lcdm_time(z, h0):
     """Textbook flat matter + Lambda cosmic time (arcsinh form)."""
     omega_l = 1 - OMEGA_M
     a = 1 / (1 + z)
-    return 2 / (3 * math.sqrt(omega_l)) * HUBBLE_TIME / np.asarray(h0) * np.arcsinh(
-        math.sqrt(omega_l / OMEGA_M) * a**1.5)
+    return (
+        2
+        / (3 * math.sqrt(omega_l))
+        * HUBBLE_TIME
+        / np.asarray(h0)
+        * np.arcsinh(math.sqrt(omega_l / OMEGA_M) * a**1.5)
+    )
 
 
 @pytest.fixture(scope="module")
@@ -40,19 +45,27 @@ def h0_grid():
 @pytest.fixture
 def grid_run(make_run, h0_grid):
     h0, weights = h0_grid
-    return make_run({"H0": h0, "Omega_m": np.full(h0.size, OMEGA_M)}, {"age": flat_lcdm_time(0.0, h0)},
-                    weights=weights, model=ModelSettings(radiation="none"))
+    return make_run(
+        {"H0": h0, "Omega_m": np.full(h0.size, OMEGA_M)},
+        {"age": flat_lcdm_time(0.0, h0)},
+        weights=weights,
+        model=ModelSettings(radiation="none"),
+    )
 
 
 def direct_probability(z, obj):
-    """P(universe at z younger than the object) = integral p(H0) P(A > t(z; H0)) dH0 (scipy quad)."""
+    """P(universe at z younger than object) = integral p(H0) P(A > t(z; H0)) dH0 (scipy quad)."""
     low, high = H0_MEAN - 6 * H0_SD, H0_MEAN + 6 * H0_SD
     mass = stats.norm.cdf(6) - stats.norm.cdf(-6)
     mu, sigma = obj.age_gyr, obj.age_err_gyr
     truncation = stats.norm.sf(-mu / sigma)
 
     def integrand(h0):
-        return stats.norm.pdf(h0, H0_MEAN, H0_SD) * stats.norm.sf((flat_lcdm_time(z, h0) - mu) / sigma) / truncation
+        return (
+            stats.norm.pdf(h0, H0_MEAN, H0_SD)
+            * stats.norm.sf((flat_lcdm_time(z, h0) - mu) / sigma)
+            / truncation
+        )
 
     value, _ = integrate.quad(integrand, low, high, epsabs=0, epsrel=1e-12)
     return value / mass
@@ -66,7 +79,9 @@ def test_gaussian_object_probability_matches_direct_integral(grid_run):
         # to ~1e-10; 1e-7 leaves room.
         assert_allclose(verdict.p_universe_younger, direct_probability(obj.z, obj), atol=1e-7)
         # The universe's age at z is the closed form's, per sample and in summary.
-        median = weighted_quantile(flat_lcdm_time(obj.z, grid_run.parameters["H0"]), 0.5, grid_run.weights)
+        median = weighted_quantile(
+            flat_lcdm_time(obj.z, grid_run.parameters["H0"]), 0.5, grid_run.weights
+        )
         assert_allclose(verdict.universe_time.median, median, rtol=1e-9)
 
 
@@ -87,7 +102,9 @@ def test_lower_limit_probability_is_the_h0_tail(grid_run):
     ok = target > 0
     x = np.sinh(1.5 * math.sqrt(1 - OMEGA_M) * target[ok] * h0[ok] / HUBBLE_TIME)
     z_f = (x * math.sqrt(OMEGA_M / (1 - OMEGA_M))) ** (-2 / 3) - 1
-    assert_allclose(verdict.formation_z.median, weighted_quantile(z_f, 0.5, grid_run.weights[ok]), rtol=1e-8)
+    assert_allclose(
+        verdict.formation_z.median, weighted_quantile(z_f, 0.5, grid_run.weights[ok]), rtol=1e-8
+    )
 
 
 def test_gaussian_no_formation_fraction_estimates_the_probability(grid_run):
@@ -105,8 +122,12 @@ def test_probability_mcse_of_independent_draws(make_run):
     # about std(q) / sqrt(n) (standard error of a mean).
     rng = np.random.default_rng(4)
     h0 = rng.normal(H0_MEAN, H0_SD, 400)
-    run = make_run({"H0": h0, "Omega_m": np.full(h0.size, OMEGA_M)}, {"age": flat_lcdm_time(0.0, h0)},
-                   chain_id=np.repeat(np.arange(4), 100), model=ModelSettings(radiation="none"))
+    run = make_run(
+        {"H0": h0, "Omega_m": np.full(h0.size, OMEGA_M)},
+        {"age": flat_lcdm_time(0.0, h0)},
+        chain_id=np.repeat(np.arange(4), 100),
+        model=ModelSettings(radiation="none"),
+    )
     obj = AgedObject("Okapi-1", 3.2, 1.75, 0.3)
     (verdict,) = confront_objects(run, [obj], z_max=10, rng=1)
     q = probability_older(flat_lcdm_time(3.2, h0), obj)
@@ -116,16 +137,23 @@ def test_probability_mcse_of_independent_draws(make_run):
 def test_probability_older_uses_the_truncated_normal():
     # An age 1 +- 1 Gyr truncated at zero: P(A > 0.5) = sf(-0.5) / sf(-1) (scipy.stats).
     obj = AgedObject("x", 1.0, 1.0, 1.0)
-    assert_allclose(probability_older(np.array([0.5]), obj), stats.norm.sf(-0.5) / stats.norm.sf(-1.0))
+    assert_allclose(
+        probability_older(np.array([0.5]), obj), stats.norm.sf(-0.5) / stats.norm.sf(-1.0)
+    )
     limit = AgedObject("y", 1.0, 2.0, 0.0, "lower_limit")
     assert probability_older(np.array([1.9, 2.1]), limit).tolist() == [1.0, 0.0]
 
 
 def test_objects_older_than_every_sample(make_run):
     h0 = np.array([69.0, 70.0, 71.0])
-    run = make_run({"H0": h0, "Omega_m": np.full(3, OMEGA_M)}, {"age": flat_lcdm_time(0.0, h0)},
-                   model=ModelSettings(radiation="none"))
-    (verdict,) = confront_objects(run, [AgedObject("Ancient", 1.0, 9.0, 0.0, "lower_limit")], z_max=5, rng=0)
+    run = make_run(
+        {"H0": h0, "Omega_m": np.full(3, OMEGA_M)},
+        {"age": flat_lcdm_time(0.0, h0)},
+        model=ModelSettings(radiation="none"),
+    )
+    (verdict,) = confront_objects(
+        run, [AgedObject("Ancient", 1.0, 9.0, 0.0, "lower_limit")], z_max=5, rng=0
+    )
     assert verdict.p_universe_younger == 1.0
     assert verdict.frac_no_formation == 1.0
     assert verdict.formation_z is None
@@ -139,7 +167,10 @@ def test_object_beyond_the_range_is_refused(grid_run):
 
 def test_stored_ages_that_the_model_does_not_reproduce_are_refused(make_run):
     h0 = np.array([69.0, 70.0, 71.0])
-    run = make_run({"H0": h0, "Omega_m": np.full(3, OMEGA_M)}, {"age": flat_lcdm_time(0.0, h0)},
-                   model=ModelSettings(radiation="full"))  # the ages were made without radiation
+    run = make_run(
+        {"H0": h0, "Omega_m": np.full(3, OMEGA_M)},
+        {"age": flat_lcdm_time(0.0, h0)},
+        model=ModelSettings(radiation="full"),
+    )  # the ages were made without radiation
     with pytest.raises(InputError, match="do not describe its samples"):
         confront_objects(run, [AgedObject("Okapi-1", 3.2, 1.6, 0.3)], z_max=10)

@@ -23,7 +23,13 @@ def flat_lcdm_time(z, h0, omega_m):
     """Textbook flat matter + Lambda cosmic time: 2/(3 H0 sqrt(OL)) asinh(sqrt(OL/Om) a^1.5)."""
     omega_l = 1 - omega_m
     a = 1 / (1 + np.asarray(z, float))
-    return 2 / (3 * math.sqrt(omega_l)) * HUBBLE_TIME / h0 * np.arcsinh(math.sqrt(omega_l / omega_m) * a**1.5)
+    return (
+        2
+        / (3 * math.sqrt(omega_l))
+        * HUBBLE_TIME
+        / h0
+        * np.arcsinh(math.sqrt(omega_l / omega_m) * a**1.5)
+    )
 
 
 def flat_lcdm_formation(target, h0, omega_m):
@@ -62,9 +68,15 @@ def _scaled_h2(a, omega_m, omega_k, w0, wa, omega_r=0.0):
 
 
 def _quad_time(z, h0, *model):
-    """Cosmic time by scipy quad over the scale factor: t(a) = integral_0^a a' da' / sqrt(a'^4 E^2)."""
-    value, _ = integrate.quad(lambda a: a / math.sqrt(_scaled_h2(a, *model)), 0.0, 1 / (1 + z),
-                              epsabs=0, epsrel=1e-12, limit=400)
+    """Cosmic time by scipy quad over a: t(a) = integral_0^a a' da' / sqrt(a'^4 E^2)."""
+    value, _ = integrate.quad(
+        lambda a: a / math.sqrt(_scaled_h2(a, *model)),
+        0.0,
+        1 / (1 + z),
+        epsabs=0,
+        epsrel=1e-12,
+        limit=400,
+    )
     return HUBBLE_TIME / h0 * value
 
 
@@ -79,11 +91,15 @@ def _quad_time(z, h0, *model):
 def test_curved_w0wa_matches_brentq_on_quad(h0, model, age):
     # Reference: scipy.optimize.brentq on scipy.integrate.quad times, tolerances 1e-13.
     omega_m, omega_k, w0, wa = model
-    background = make_background(h0=[h0], omega_m=omega_m, omega_k=omega_k, w0=w0, wa=wa, radiation="none")
+    background = make_background(
+        h0=[h0], omega_m=omega_m, omega_k=omega_k, w0=w0, wa=wa, radiation="none"
+    )
     z_f, t_object = formation_redshift(background, 3.2, age)
     t_ref = _quad_time(3.2, h0, *model)
     assert_allclose(t_object[0], t_ref, rtol=1e-10)
-    root = optimize.brentq(lambda z: _quad_time(z, h0, *model) - (t_ref - age), 3.2, 1e5, xtol=1e-12, rtol=1e-14)
+    root = optimize.brentq(
+        lambda z: _quad_time(z, h0, *model) - (t_ref - age), 3.2, 1e5, xtol=1e-12, rtol=1e-14
+    )
     assert_allclose((1 + z_f[0]) / (1 + root), 1.0, rtol=1e-9)
 
 
@@ -100,7 +116,9 @@ def test_radiation_model_matches_brentq_with_independent_photon_density():
     z_f, t_object = formation_redshift(background, 6.0, 0.6)
     t_ref = _quad_time(6.0, h0, *model)
     assert_allclose(t_object[0], t_ref, rtol=1e-9)
-    root = optimize.brentq(lambda z: _quad_time(z, h0, *model) - (t_ref - 0.6), 6.0, 1e5, xtol=1e-12, rtol=1e-14)
+    root = optimize.brentq(
+        lambda z: _quad_time(z, h0, *model) - (t_ref - 0.6), 6.0, 1e5, xtol=1e-12, rtol=1e-14
+    )
     assert_allclose((1 + z_f[0]) / (1 + root), 1.0, rtol=1e-8)  # photon constants agree to ~1e-9
 
 

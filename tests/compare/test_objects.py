@@ -19,10 +19,13 @@ def write(tmp_path: Path, text: str) -> Path:
 
 
 def test_reads_both_kinds_comments_and_extra_columns(tmp_path):
-    path = write(tmp_path, "# invented Lantern objects\nname,z,age_gyr,age_err_gyr,kind,note\n"
-                           "Okapi-1,3.2,1.6,0.3,gaussian,bright\n"
-                           "Heron cluster,0,12.9,,lower_limit,\n"
-                           "Marten-6,6.1,0.75,0.1,,\n")
+    path = write(
+        tmp_path,
+        "# invented Lantern objects\nname,z,age_gyr,age_err_gyr,kind,note\n"
+        "Okapi-1,3.2,1.6,0.3,gaussian,bright\n"
+        "Heron cluster,0,12.9,,lower_limit,\n"
+        "Marten-6,6.1,0.75,0.1,,\n",
+    )
     assert read_objects(path) == [
         AgedObject("Okapi-1", 3.2, 1.6, 0.3, "gaussian"),
         AgedObject("Heron cluster", 0.0, 12.9, 0.0, "lower_limit"),

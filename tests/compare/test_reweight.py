@@ -43,8 +43,12 @@ def test_gaussian_constraint_gives_the_analytic_product(age_run):
     assert_allclose(after.mean, mu, rtol=1e-6)
     assert_allclose(after.std, s, rtol=1e-4)
     assert_allclose(after.median, mu, atol=1e-4 * s)
-    assert_allclose(after.intervals["0.68"].equal_tail, mu + s * stats.norm.ppf([0.16, 0.84]), atol=2e-3 * s)
-    assert_allclose(after.intervals["0.95"].equal_tail, mu + s * stats.norm.ppf([0.025, 0.975]), atol=2e-3 * s)
+    assert_allclose(
+        after.intervals["0.68"].equal_tail, mu + s * stats.norm.ppf([0.16, 0.84]), atol=2e-3 * s
+    )
+    assert_allclose(
+        after.intervals["0.95"].equal_tail, mu + s * stats.norm.ppf([0.025, 0.975]), atol=2e-3 * s
+    )
     # H0 = K / t0 is monotone in t0, so its median follows the age's.
     assert_allclose(result.after["H0"].median, K / after.median, rtol=1e-6)
     assert result.before["age"].median == pytest.approx(MU, abs=1e-6)
@@ -77,7 +81,9 @@ def test_soft_lower_limit_matches_gaussian_selection_formula(age_run):
 
 
 def test_ess_floor_warning(age_run):
-    narrow = AgeConstraint("gaussian", 13.8, 0.002)  # keeps ~ n * 0.002 / 0.3 * sqrt(2) effective rows
+    narrow = AgeConstraint(
+        "gaussian", 13.8, 0.002
+    )  # keeps ~ n * 0.002 / 0.3 * sqrt(2) effective rows
     result = reweight_run(age_run, narrow, ess_floor=1000)
     assert result.ess_kish_after < 1000
     assert any("below the floor 1000" in text for text in result.warnings)

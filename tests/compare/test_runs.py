@@ -20,9 +20,19 @@ def test_chain_file_is_derived_at_the_redshifts(chain_file):
     path = chain_file("lantern_a.txt", n=300)
     run = load_run(path, redshifts=[1.0, 2.0], model=ModelSettings(radiation="none"))
     assert run.label == "lantern_a"
-    assert list(run.quantities.columns) == ["age", "lookback_z1", "cosmic_time_z1", "lookback_z2", "cosmic_time_z2"]
+    assert list(run.quantities.columns) == [
+        "age",
+        "lookback_z1",
+        "cosmic_time_z1",
+        "lookback_z2",
+        "cosmic_time_z2",
+    ]
     assert run.n_samples == 300 and run.n_excluded == 0
-    assert_allclose(run.quantities["age"], run.quantities["lookback_z1"] + run.quantities["cosmic_time_z1"], rtol=1e-12)
+    assert_allclose(
+        run.quantities["age"],
+        run.quantities["lookback_z1"] + run.quantities["cosmic_time_z1"],
+        rtol=1e-12,
+    )
     assert run.model.radiation == "none"
     assert run.input_files == (path,)
 
@@ -39,8 +49,10 @@ def test_run_folder_written_by_the_run_command_round_trips(chain_file, tmp_path)
     path = chain_file("lantern_b.txt", n=400, seed=3)
     out = tmp_path / "derived"
     config = tmp_path / "massless.toml"  # no figures: only the files compare reads
-    config.write_text(f'[chain]\nfiles = ["{path}"]\n[model]\nradiation = "massless"\n'
-                      '[quantities]\nredshifts = [0.5]\n[output]\nfolder = "derived"\nfigures = []\n')
+    config.write_text(
+        f'[chain]\nfiles = ["{path}"]\n[model]\nradiation = "massless"\n'
+        '[quantities]\nredshifts = [0.5]\n[output]\nfolder = "derived"\nfigures = []\n'
+    )
     assert main(["--quiet", "run", str(config)]) == 0
     folder_run = load_run(out)
     chain_run = load_run(path, redshifts=[0.5], model=ModelSettings(radiation="massless"))
@@ -59,7 +71,10 @@ def test_parameters_fixed_by_the_reader_are_recovered_from_provenance(chain_file
     # m_nu = 0.3 eV changes the age by ~1e-2 relative; were it lost, rebuilding would fail.
     path = chain_file("lantern_c.txt", n=200, seed=5)
     config = tmp_path / "fixed.toml"
-    config.write_text(f'[chain]\nfiles = ["{path}"]\nfixed = {{ m_nu = 0.3 }}\n[output]\nfolder = "out"\nfigures = []\n')
+    config.write_text(
+        f'[chain]\nfiles = ["{path}"]\nfixed = {{ m_nu = 0.3 }}\n'
+        '[output]\nfolder = "out"\nfigures = []\n'
+    )
     assert main(["--quiet", "run", str(config)]) == 0
     run = load_run(tmp_path / "out")
     assert run.fixed == {"m_nu": 0.3}

@@ -23,8 +23,11 @@ def gaussian_run(make_run, label, age_mean, age_sd, h0_mean, *, n=3000, seed=0, 
     rng = np.random.default_rng(seed)
     quantities = {"age": rng.normal(age_mean, age_sd, n), "lookback_z1": rng.normal(7.9, 0.05, n)}
     quantities |= extra or {}
-    parameters = {"H0": rng.normal(h0_mean, 0.8, n), "Omega_m": rng.normal(0.31, 0.01, n),
-                  "w0": np.full(n, -1.0)}
+    parameters = {
+        "H0": rng.normal(h0_mean, 0.8, n),
+        "Omega_m": rng.normal(0.31, 0.01, n),
+        "w0": np.full(n, -1.0),
+    }
     return make_run(parameters, quantities, chain_id=np.repeat(np.arange(3), n // 3), label=label)
 
 
@@ -32,7 +35,9 @@ def gaussian_run(make_run, label, age_mean, age_sd, h0_mean, *, n=3000, seed=0, 
 def runs(make_run):
     return [
         gaussian_run(make_run, "early", 13.80, 0.02, 67.5, seed=1),
-        gaussian_run(make_run, "late", 13.60, 0.08, 72.0, seed=2, extra={"lookback_z2": np.zeros(3000)}),
+        gaussian_run(
+            make_run, "late", 13.60, 0.08, 72.0, seed=2, extra={"lookback_z2": np.zeros(3000)}
+        ),
         gaussian_run(make_run, "third", 13.70, 0.05, 70.0, seed=3),
     ]
 
@@ -46,7 +51,9 @@ def test_shared_names_keep_first_order_and_varying_parameters(runs):
 def test_runs_sharing_nothing_are_refused(make_run):
     a = make_run({"H0": [1.0, 2.0]}, {"lookback_z1": [1.0, 2.0]}, label="a")
     b = make_run({"H0": [1.0, 2.0]}, {"lookback_z2": [1.0, 2.0]}, label="b")
-    with pytest.raises(InputError, match="share no derived quantity .*a: lookback_z1; b: lookback_z2"):
+    with pytest.raises(
+        InputError, match="share no derived quantity .*a: lookback_z1; b: lookback_z2"
+    ):
         shared_names([a, b])
     with pytest.raises(InputError, match="at least two runs"):
         compare_runs([a])
@@ -63,10 +70,16 @@ def test_every_pair_is_second_minus_first_with_its_own_seed(runs):
     assert_allclose(d.tension_sigma, 0.20 / s_d, atol=0.15)
     # The same draws as a direct call with the documented per-quantity generator.
     rng = np.random.default_rng(np.random.SeedSequence([5, 0, 1, zlib.crc32(b"age")]))
-    direct = difference_summary(runs[0].quantities["age"], runs[0].weights, runs[1].quantities["age"],
-                                runs[1].weights, n_draws=4000, rng=rng,
-                                ess_first=comparison.summaries["early"]["age"].ess,
-                                ess_second=comparison.summaries["late"]["age"].ess)
+    direct = difference_summary(
+        runs[0].quantities["age"],
+        runs[0].weights,
+        runs[1].quantities["age"],
+        runs[1].weights,
+        n_draws=4000,
+        rng=rng,
+        ess_first=comparison.summaries["early"]["age"].ess,
+        ess_second=comparison.summaries["late"]["age"].ess,
+    )
     assert d == direct
     # Comparing fewer runs leaves this pair's draws unchanged.
     assert compare_runs(runs[:2], n_draws=4000, seed=5).differences["age"]["late - early"] == d
@@ -80,8 +93,16 @@ def test_records_have_the_documented_keys(runs):
     age = record["quantities"]["age"]
     assert age["unit"] == "Gyr" and set(age["runs"]) == {"early", "late"}
     pair = age["differences"]["late - early"]
-    assert set(pair) >= {"first", "second", "difference", "prob_same_sign", "tension_sigma",
-                         "tension_is_lower_bound", "tension_sigma_gaussian", "n_draws"}
+    assert set(pair) >= {
+        "first",
+        "second",
+        "difference",
+        "prob_same_sign",
+        "tension_sigma",
+        "tension_is_lower_bound",
+        "tension_sigma_gaussian",
+        "n_draws",
+    }
     assert set(pair["difference"]["intervals"]["0.68"]) == {"equal_tail", "hpd", "upper", "lower"}
     assert record["parameters"]["H0"]["unit"] == "km/s/Mpc"
     assert record["resampling"]["seed"] == 1

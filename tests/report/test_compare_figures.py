@@ -36,7 +36,9 @@ def two_runs():
 
 
 def test_marginals_overlay_each_run_with_its_peak_at_its_mode(two_runs):
-    fig = overlaid_marginals_figure([("$t_0$ [Gyr]", two_runs), ("again", two_runs), ("third", two_runs)])
+    fig = overlaid_marginals_figure(
+        [("$t_0$ [Gyr]", two_runs), ("again", two_runs), ("third", two_runs)]
+    )
     assert isinstance(fig, Figure)
     visible = [ax for ax in fig.axes if ax.get_visible()]
     assert len(visible) == 3  # the fourth cell of the 2 x 2 grid is hidden
@@ -56,11 +58,18 @@ def test_bands_draw_the_median_and_the_offset_from_the_first_run():
     z = np.array([0.0, 1.0, 3.0])
     first = 13.8 / (1 + z)[None, :] ** 1.5 + rng.normal(0, 0.01, (500, 1))
     second = first + 0.05
-    fig = overlaid_bands_figure(z, {"A": first, "B": second}, levels=(0.68,),
-                                subsample_sizes={"A": (500, 9000), "B": (500, 8000)})
+    fig = overlaid_bands_figure(
+        z,
+        {"A": first, "B": second},
+        levels=(0.68,),
+        subsample_sizes={"A": (500, 9000), "B": (500, 8000)},
+    )
     top, bottom = fig.axes
-    median_a, median_b = (line for line in top.get_lines() if line.get_label() in ("A (500 of 9,000 by weight)",
-                                                                                  "B (500 of 8,000 by weight)"))
+    median_a, median_b = (
+        line
+        for line in top.get_lines()
+        if line.get_label() in ("A (500 of 9,000 by weight)", "B (500 of 8,000 by weight)")
+    )
     assert_allclose(median_a.get_ydata(), np.median(first, axis=0), rtol=1e-12)
     offset_b = next(line for line in bottom.get_lines() if line.get_label() == "B")
     assert_allclose(offset_b.get_ydata(), 50.0, rtol=1e-9)  # 0.05 Gyr = 50 Myr
@@ -72,13 +81,18 @@ def test_bands_draw_the_median_and_the_offset_from_the_first_run():
 def test_corner_overlay_keeps_every_histogram_in_view(two_runs):
     rng = np.random.default_rng(5)
     frames = {
-        label: (pd.DataFrame({"age": values, "H0": rng.normal(68, 1, values.size), "w0": -1.0}), weights)
+        label: (
+            pd.DataFrame({"age": values, "H0": rng.normal(68, 1, values.size), "w0": -1.0}),
+            weights,
+        )
         for label, (values, weights) in two_runs.items()
     }
     fig = overlaid_corner_figure(frames, levels=(0.68, 0.95))
     assert len(fig.axes) == 4  # w0 holds one value in both runs and is left out
     diagonal = fig.axes[0]
-    narrow_peak = np.histogram(two_runs["narrow"][0], bins=30, range=diagonal.get_xlim(), density=True)[0].max()
+    narrow_peak = np.histogram(
+        two_runs["narrow"][0], bins=30, range=diagonal.get_xlim(), density=True
+    )[0].max()
     assert diagonal.get_ylim()[1] >= narrow_peak  # the narrow run is not clipped
     constant = {k: (pd.DataFrame({"w0": np.full(3, -1.0)}), None) for k in ("a", "b")}
     with pytest.raises(InputError, match="no shared column varies"):
@@ -102,6 +116,8 @@ def test_objects_figure_and_saving(tmp_path):
 def test_reweight_figure_labels_the_constraint(two_runs):
     values, _ = two_runs["wide"]
     after = np.exp(-0.5 * ((values - 13.7) / 0.05) ** 2)
-    fig = reweight_figure([("$t_0$", values, np.ones_like(values), after)], constraint_label="t0 = 13.7")
+    fig = reweight_figure(
+        [("$t_0$", values, np.ones_like(values), after)], constraint_label="t0 = 13.7"
+    )
     labels = [line.get_label() for line in fig.axes[0].get_lines() if len(line.get_xdata()) > 2]
     assert labels == ["before", "after: t0 = 13.7"]

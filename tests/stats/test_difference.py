@@ -55,7 +55,9 @@ def test_two_gaussians_give_the_analytic_difference_and_tension(gaussians):
         assert_allclose([low, high], [delta - half, delta + half], atol=0.025 * s_d)
         hpd_low, hpd_high = result.intervals[key].hpd  # symmetric: HPD = equal-tailed
         assert_allclose([hpd_low, hpd_high], [delta - half, delta + half], atol=0.03 * s_d)
-        assert_allclose(result.intervals[key].upper, delta + stats.norm.ppf(level) * s_d, atol=0.025 * s_d)
+        assert_allclose(
+            result.intervals[key].upper, delta + stats.norm.ppf(level) * s_d, atol=0.025 * s_d
+        )
 
 
 def test_weighted_sets_agree_with_the_same_gaussians():
