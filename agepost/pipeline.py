@@ -1,13 +1,22 @@
 """One run from start to end: read the chain, derive, summarise, write the outputs.
 
-The library functions here return results and never print; ``write_outputs`` is the only
-part that touches the disk, and it checks every output name before writing anything.
+:func:`run_to_folder` is what ``agepost run`` and ``agepost derive`` call. It streams the
+chain through an engine (:mod:`agepost.engines`) chunk by chunk, appending every derived
+chunk to ``samples.h5``, so memory stays bounded whatever the chain's length. A run of at
+most ``StreamSettings.in_memory_rows`` rows is then summarised in memory, exactly as
+:func:`agepost.stats.summary.summarise` does; a longer one by passes over ``samples.h5``
+(:mod:`agepost.engines.streamed`). Every output is staged and appears only when all are
+complete (:mod:`agepost.engines.staging`).
+
+:func:`compute` and :func:`summarise_run` are the in-memory path for notebooks (nothing
+written).
 """
 
 from __future__ import annotations
 
 import dataclasses
 import datetime
+import functools
 import hashlib
 import logging
 from pathlib import Path
@@ -18,12 +27,18 @@ import pandas as pd
 
 from agepost import __version__
 from agepost.chains import SampleSet, read_chains
-from agepost.chains.reader import expand_paths
+from agepost.chains.reader import DEFAULT_CHUNK_ROWS, expand_paths
 from agepost.config import RunSettings
 from agepost.derive import DerivedSamples, derive, redshift_label
+from agepost.engines import Engine
+from agepost.engines.derive_pass import RunOverview, RunTally, load_samples, varying_parameters
+from agepost.engines.passes import GatherPlan, combine_gathered, gather_piece
+from agepost.engines.staging import staged_outputs
+from agepost.engines.streamed import StreamSettings, streamed_summaries
 from agepost.errors import ComputationError
-from agepost.exclusions import Exclusion, count_reasons
+from agepost.exclusions import count_reasons
 from agepost.outputs import OutputFolder
+from agepost.progress import progress
 from agepost.report.samples_file import SAMPLES_FILE, DerivedSamplesWriter
 from agepost.report.tables import quantity_record, summary_csv, summary_latex
 from agepost.stats.summary import QuantitySummary, summarise
@@ -32,8 +47,14 @@ logger = logging.getLogger(__name__)
 
 PARAMETER_UNITS = {"H0": "km/s/Mpc", "m_nu": "eV"}
 LATEX_LABELS = {
-    "age": "$t_0$", "H0": "$H_0$", "Omega_m": r"$\Omega_\mathrm{m}$", "Omega_k": r"$\Omega_k$",
-    "w0": "$w_0$", "wa": "$w_a$", "m_nu": r"$\sum m_\nu$", "N_eff": r"$N_\mathrm{eff}$",
+    "age": "$t_0$",
+    "H0": "$H_0$",
+    "Omega_m": r"$\Omega_\mathrm{m}$",
+    "Omega_k": r"$\Omega_k$",
+    "w0": "$w_0$",
+    "wa": "$w_a$",
+    "m_nu": r"$\sum m_\nu$",
+    "N_eff": r"$N_\mathrm{eff}$",
 }
 #: Seed of the random subsample drawn for figures when ``plot_cap`` is set (recorded).
 PLOT_SUBSAMPLE_SEED = 20261202
@@ -41,7 +62,7 @@ PLOT_SUBSAMPLE_SEED = 20261202
 
 @dataclasses.dataclass(frozen=True)
 class RunResult:
-    """What a run computed: inputs, derived samples, summaries and warnings."""
+    """What an in-memory run computed: inputs, derived samples, summaries and warnings."""
 
     samples: SampleSet
     derived: DerivedSamples
@@ -49,19 +70,53 @@ class RunResult:
     parameters: dict[str, QuantitySummary]
     warnings: tuple[str, ...]
 
+    @property
+    def overview(self) -> RunOverview:
+        """Counts and bookkeeping of the run."""
+        derived = self.derived
+        return RunOverview(
+            source=self.samples.source,
+            n_samples=int(derived.exclusion.size),
+            n_kept=int(np.count_nonzero(derived.kept)),
+            excluded=count_reasons(derived.exclusion),
+            n_chains=self.samples.n_chains,
+            redshifts=derived.redshifts,
+            filled=dict(derived.filled),
+            notes=self.samples.notes,
+        )
+
+
+@dataclasses.dataclass(frozen=True)
+class RunSummary:
+    """What a run written to a folder reports (no samples held in memory).
+
+    ``method`` says how the statistics were made: ``"in memory"`` or ``"streamed"``.
+    """
+
+    overview: RunOverview
+    quantities: dict[str, QuantitySummary]
+    parameters: dict[str, QuantitySummary]
+    warnings: tuple[str, ...]
+    method: str
+
 
 def compute(settings: RunSettings) -> RunResult:
-    """Read, derive and summarise (no files written)."""
+    """Read, derive and summarise in memory (no files written)."""
     samples = read_chains(list(settings.chain_files), settings.read)
     derived = derive(samples, settings.redshifts, model=settings.model)
     return summarise_run(samples, derived, levels=settings.levels)
 
 
-def summarise_run(samples: SampleSet, derived: DerivedSamples, *, levels: tuple[float, ...]) -> RunResult:
+def summarise_run(
+    samples: SampleSet, derived: DerivedSamples, *, levels: tuple[float, ...]
+) -> RunResult:
     """Summaries of every derived quantity and varying input parameter over kept rows."""
     kept = derived.kept & (derived.weights > 0)
     if not np.any(kept):
-        reasons = ", ".join(f"{k}: {v}" for k, v in count_reasons(derived.exclusion).items()) or "all weights zero"
+        reasons = (
+            ", ".join(f"{k}: {v}" for k, v in count_reasons(derived.exclusion).items())
+            or "all weights zero"
+        )
         raise ComputationError(
             f"all {derived.exclusion.size} samples of {samples.source} were excluded ({reasons}); "
             "nothing to summarise: check the parameter columns and the model settings"
@@ -72,51 +127,198 @@ def summarise_run(samples: SampleSet, derived: DerivedSamples, *, levels: tuple[
         for name in derived.quantities.columns
     }
     parameters = {
-        name: summarise(samples.parameters[name].to_numpy(float)[kept], weights, chains, levels=levels)
+        name: summarise(
+            samples.parameters[name].to_numpy(float)[kept], weights, chains, levels=levels
+        )
         for name in samples.parameters.columns
         if np.ptp(samples.parameters[name].to_numpy(float)[kept]) > 0
     }
-    warnings = [f"{name}: {text}" for name, summary in quantities.items() for text in summary.warnings]
-    n_excluded = int(np.count_nonzero(~derived.kept))
+    result = RunResult(samples, derived, quantities, parameters, ())
+    return dataclasses.replace(result, warnings=run_warnings(quantities, result.overview))
+
+
+def run_warnings(quantities: dict[str, QuantitySummary], overview: RunOverview) -> tuple[str, ...]:
+    """Warnings of every derived quantity, and one for samples without a derived value."""
+    warnings = [
+        f"{name}: {text}" for name, summary in quantities.items() for text in summary.warnings
+    ]
+    n_excluded = overview.n_samples - overview.n_kept
     if n_excluded:
-        fraction = n_excluded / derived.exclusion.size
+        fraction = n_excluded / overview.n_samples
         warnings.append(
-            f"{n_excluded} of {derived.exclusion.size} samples ({fraction:.2%}) have no derived value: "
-            + ", ".join(f"{k} {v}" for k, v in count_reasons(derived.exclusion).items())
+            f"{n_excluded} of {overview.n_samples} samples ({fraction:.2%}) have no derived value: "
+            + ", ".join(f"{k} {v}" for k, v in overview.excluded.items())
             + "; the summaries describe the rest, which conditions the posterior on those rows"
         )
-    return RunResult(samples, derived, quantities, parameters, tuple(warnings))
+    return tuple(warnings)
 
 
-def summary_record(result: RunResult, settings: RunSettings) -> dict[str, Any]:
+def run_to_folder(
+    settings: RunSettings,
+    engine: Engine,
+    *,
+    command: list[str] | None = None,
+    stream: StreamSettings | None = None,
+    chunk_rows: int = DEFAULT_CHUNK_ROWS,
+    show_progress: bool = False,
+) -> RunSummary:
+    """Derive, summarise and write every output of one run into ``settings.output``.
+
+    Nothing appears in the folder unless the whole run succeeds (outputs are staged).
+
+    Parameters
+    ----------
+    settings : RunSettings
+    engine : Engine
+        Where chunks are derived and passes computed (:func:`agepost.engines.open_engine`).
+    command : list of str or None
+        Command line recorded in the provenance.
+    stream : StreamSettings or None
+        Memory budgets; the default summarises up to 2 million rows in memory.
+    chunk_rows : int
+        Rows read and derived at once.
+    show_progress : bool
+        Draw a progress bar on stderr (only on a terminal).
+    """
+    stream = stream or StreamSettings()
+    folder = OutputFolder(settings.output, force=settings.force)
+    with staged_outputs(folder, output_names(settings)) as stage:
+        samples_path = stage.root / SAMPLES_FILE
+        with DerivedSamplesWriter(samples_path) as writer:
+            tally = RunTally(writer)
+            with progress(None, label="deriving rows", enabled=show_progress) as bar:
+                for result in engine.derived_chunks(settings, chunk_rows=chunk_rows):
+                    tally.add(result)
+                    bar.advance(result.samples.n_samples)
+        overview = tally.overview()
+        for name, value in overview.filled.items():
+            logger.info("%s is not in the chain: assumed %s for every sample", name, value)
+        if tally.n_rows <= stream.in_memory_rows:
+            summary, corner = _in_memory(samples_path, tally, settings)
+        else:
+            summary, corner = _streamed(samples_path, tally, settings, engine, stream)
+        _write_records(stage, summary, settings, engine, stream, corner, command)
+    return summary
+
+
+def _in_memory(path: Path, tally: RunTally, settings: RunSettings) -> tuple[RunSummary, Any]:
+    samples, derived = load_samples(path, tally)
+    result = summarise_run(samples, derived, levels=settings.levels)
+    kept = np.flatnonzero(derived.kept & (derived.weights > 0))
+    rows = _figure_rows(kept.size, settings.read.plot_cap)
+    columns = [c for c in samples.parameters.columns if c in result.parameters]
+    frame = pd.concat(
+        [
+            samples.parameters.loc[kept[rows], columns].reset_index(drop=True),
+            derived.quantities.loc[kept[rows], ["age"]].reset_index(drop=True),
+        ],
+        axis=1,
+    )
+    summary = RunSummary(
+        result.overview, result.quantities, result.parameters, result.warnings, "in memory"
+    )
+    return summary, (frame, derived.weights[kept[rows]])
+
+
+def _streamed(
+    path: Path, tally: RunTally, settings: RunSettings, engine: Engine, stream: StreamSettings
+) -> tuple[RunSummary, Any]:
+    overview = tally.overview()
+    logger.info("%d rows: summarising by passes over %s", tally.n_rows, SAMPLES_FILE)
+    parameters = varying_parameters(tally)
+    names = [f"derived/{q}" for q in tally.quantities] + [f"parameters/{p}" for p in parameters]
+    found = streamed_summaries(
+        str(path), tally, names, engine, levels=settings.levels, settings=stream
+    )
+    quantities = {q: found[f"derived/{q}"] for q in tally.quantities}
+    summaries = {p: found[f"parameters/{p}"] for p in parameters}
+    summary = RunSummary(
+        overview, quantities, summaries, run_warnings(quantities, overview), "streamed"
+    )
+    if "corner" not in settings.figures:
+        return summary, None
+    cap = settings.read.plot_cap or stream.figure_rows
+    ranks = _figure_rows(tally.n_counted, cap)
+    columns = tuple(f"parameters/{p}" for p in parameters) + ("derived/age",)
+    plan = GatherPlan(str(path), columns, ranks)
+    pieces = engine.map_ordered(gather_piece, tally.slices, shared=plan)
+    gathered: dict[str, np.ndarray] = functools.reduce(combine_gathered, pieces)
+    weights = gathered.pop("weight")
+    frame = pd.DataFrame({name.split("/", 1)[1]: values for name, values in gathered.items()})
+    return summary, (frame, weights)
+
+
+def _figure_rows(n_counted: int, cap: int | None) -> np.ndarray:
+    """Ranks (among counted rows) drawn for figures: all, or ``cap`` by the recorded seed."""
+    if cap is None or n_counted <= cap:
+        return np.arange(n_counted)
+    logger.info("corner plot drawn from %d of the kept samples", cap)
+    return np.sort(
+        np.random.default_rng(PLOT_SUBSAMPLE_SEED).choice(n_counted, size=cap, replace=False)
+    )
+
+
+def _write_records(
+    stage: OutputFolder,
+    summary: RunSummary,
+    settings: RunSettings,
+    engine: Engine,
+    stream: StreamSettings,
+    corner: Any,
+    command: list[str] | None,
+) -> None:
+    units = {name: "Gyr" for name in summary.quantities} | {
+        name: PARAMETER_UNITS.get(name, "") for name in summary.parameters
+    }
+    everything = summary.quantities | summary.parameters
+    labels = LATEX_LABELS | latex_labels(summary.overview.redshifts)
+    stage.write_json("summary.json", summary_record(summary, settings))
+    stage.write_text("summary.csv", summary_csv(everything, units))
+    stage.write_text("summary.tex", summary_latex(everything, units, labels))
+    if "corner" in settings.figures:
+        frame, weights = corner
+        _corner(frame, weights, settings, stage)
+    record = provenance_record(summary, settings, command)
+    record["computation"] = {
+        "engine": engine.describe(),
+        "statistics": summary.method,
+        "budgets": dataclasses.asdict(stream),
+    }
+    stage.write_json("provenance.json", record)
+
+
+def summary_record(result: RunResult | RunSummary, settings: RunSettings) -> dict[str, Any]:
     """The ``summary.json`` document."""
-    derived = result.derived
+    overview = result.overview
     return {
         "agepost_version": __version__,
-        "source": result.samples.source,
-        "n_samples": int(derived.exclusion.size),
-        "n_kept": int(np.count_nonzero(derived.kept)),
-        "n_excluded": int(np.count_nonzero(~derived.kept)),
-        "excluded": count_reasons(derived.exclusion),
-        "n_chains": result.samples.n_chains,
-        "redshifts": list(derived.redshifts),
+        "source": overview.source,
+        "n_samples": overview.n_samples,
+        "n_kept": overview.n_kept,
+        "n_excluded": overview.n_samples - overview.n_kept,
+        "excluded": dict(overview.excluded),
+        "n_chains": overview.n_chains,
+        "redshifts": list(overview.redshifts),
         "levels": list(settings.levels),
-        "model": model_record(settings, derived),
-        "quantities": {name: quantity_record(s, unit="Gyr") for name, s in result.quantities.items()},
+        "model": model_record(settings, overview),
+        "quantities": {
+            name: quantity_record(s, unit="Gyr") for name, s in result.quantities.items()
+        },
         "parameters": {
-            name: quantity_record(s, unit=PARAMETER_UNITS.get(name, "")) for name, s in result.parameters.items()
+            name: quantity_record(s, unit=PARAMETER_UNITS.get(name, ""))
+            for name, s in result.parameters.items()
         },
         "warnings": list(result.warnings),
     }
 
 
-def model_record(settings: RunSettings, derived: DerivedSamples) -> dict[str, Any]:
+def model_record(settings: RunSettings, overview: RunOverview) -> dict[str, Any]:
     """Model choices and every default that was applied."""
     return {
         "radiation": settings.model.radiation,
         "t_cmb_k": settings.model.t_cmb,
         "n_massive": settings.model.n_massive,
-        "assumed_for_missing_parameters": dict(derived.filled),
+        "assumed_for_missing_parameters": dict(overview.filled),
     }
 
 
@@ -138,53 +340,24 @@ def output_names(settings: RunSettings) -> list[str]:
     return names
 
 
-def write_outputs(result: RunResult, settings: RunSettings, *, command: list[str] | None = None) -> list[Path]:
-    """Write summaries, figures, derived samples and provenance into ``settings.output``."""
-    folder = OutputFolder(settings.output, force=settings.force)
-    folder.check_free(*output_names(settings))
-    units = {name: "Gyr" for name in result.quantities} | {
-        name: PARAMETER_UNITS.get(name, "") for name in result.parameters
-    }
-    everything = result.quantities | result.parameters
-    labels = LATEX_LABELS | latex_labels(result.derived.redshifts)
-    written = [
-        folder.write_json("summary.json", summary_record(result, settings)),
-        folder.write_text("summary.csv", summary_csv(everything, units)),
-        folder.write_text("summary.tex", summary_latex(everything, units, labels)),
-    ]
-    with folder.atomic_path(SAMPLES_FILE) as temporary, DerivedSamplesWriter(temporary) as writer:
-        d = result.derived
-        writer.append(result.samples.parameters, d.quantities, weights=d.weights, chain_id=d.chain_id,
-                      exclusion=d.exclusion)
-    written.append(folder.root / SAMPLES_FILE)
-    if "corner" in settings.figures:
-        written += _corner(result, settings, folder)
-    written.append(folder.write_json("provenance.json", provenance_record(result, settings, command)))
-    return written
-
-
-def _corner(result: RunResult, settings: RunSettings, folder: OutputFolder) -> list[Path]:
+def _corner(
+    frame: pd.DataFrame, weights: np.ndarray, settings: RunSettings, folder: OutputFolder
+) -> None:
     from agepost.report.figures import corner_figure, save_figure  # matplotlib only when drawing
 
-    derived = result.derived
-    kept = np.flatnonzero(derived.kept & (derived.weights > 0))
-    cap = settings.read.plot_cap
-    if cap is not None and kept.size > cap:
-        kept = np.sort(np.random.default_rng(PLOT_SUBSAMPLE_SEED).choice(kept, size=cap, replace=False))
-        logger.info("corner plot drawn from %d of the kept samples (plot_cap)", cap)
-    columns = [c for c in result.samples.parameters.columns if c in result.parameters]
-    frame = pd.concat([result.samples.parameters.loc[kept, columns].reset_index(drop=True),
-                       derived.quantities.loc[kept, ["age"]].reset_index(drop=True)], axis=1)
     labels = {"age": r"$t_0$ [Gyr]", "H0": r"$H_0$ [km/s/Mpc]", "m_nu": r"$\sum m_\nu$ [eV]"}
     labels = {k: v for k, v in (LATEX_LABELS | labels).items() if k in frame.columns}
-    figure = corner_figure(frame, derived.weights[kept], levels=settings.levels, labels=labels)
-    return save_figure(figure, folder, "corner")
+    figure = corner_figure(frame, weights, levels=settings.levels, labels=labels)
+    save_figure(figure, folder, "corner")
 
 
-def provenance_record(result: RunResult, settings: RunSettings, command: list[str] | None) -> dict[str, Any]:
+def provenance_record(
+    result: RunResult | RunSummary, settings: RunSettings, command: list[str] | None
+) -> dict[str, Any]:
     """Tool version, input checksums, resolved settings, defaults, seeds, exclusions."""
     read = dataclasses.asdict(settings.read)
     read.pop("from_config", None)
+    overview = result.overview
     return {
         "agepost_version": __version__,
         "created_utc": datetime.datetime.now(datetime.UTC).isoformat(timespec="seconds"),
@@ -193,15 +366,15 @@ def provenance_record(result: RunResult, settings: RunSettings, command: list[st
         "inputs": [file_fingerprint(path) for path in expand_paths(list(settings.chain_files))],
         "settings": {
             "read": {k: (str(v) if isinstance(v, Path) else v) for k, v in read.items()},
-            "model": model_record(settings, result.derived),
+            "model": model_record(settings, overview),
             "redshifts": list(settings.redshifts),
             "levels": list(settings.levels),
             "output": str(settings.output),
             "figures": list(settings.figures),
         },
         "setting_sources": dict(settings.sources),
-        "reader_notes": list(result.samples.notes),
-        "excluded": count_reasons(result.derived.exclusion),
+        "reader_notes": list(overview.notes),
+        "excluded": dict(overview.excluded),
         "random_seeds": {"plot_subsample": PLOT_SUBSAMPLE_SEED},
     }
 

@@ -53,15 +53,24 @@ class DerivedSamplesWriter:
         exclusion: NDArray,
     ) -> None:
         """Add rows; every array has the same length."""
-        columns = {f"parameters/{name}": parameters[name].to_numpy(float) for name in parameters.columns}
+        columns = {
+            f"parameters/{name}": parameters[name].to_numpy(float) for name in parameters.columns
+        }
         columns |= {f"derived/{name}": derived[name].to_numpy(float) for name in derived.columns}
-        columns |= {"weight": np.asarray(weights, float), "chain_id": np.asarray(chain_id, np.int64),
-                    "exclusion": np.asarray(exclusion, np.int8)}
+        columns |= {
+            "weight": np.asarray(weights, float),
+            "chain_id": np.asarray(chain_id, np.int64),
+            "exclusion": np.asarray(exclusion, np.int8),
+        }
         n = len(derived)
         for name, values in columns.items():
             if name not in self._file:
                 dataset = self._file.create_dataset(
-                    name, shape=(0,), maxshape=(None,), dtype=values.dtype, chunks=(min(max(n, 1), 1 << 16),)
+                    name,
+                    shape=(0,),
+                    maxshape=(None,),
+                    dtype=values.dtype,
+                    chunks=(min(max(n, 1), 1 << 16),),
                 )
                 if name.startswith("derived/"):
                     dataset.attrs["unit"] = "Gyr"
