@@ -8,6 +8,7 @@ derived here with ``--z``, the model flags and ``--burn-in``.
 from __future__ import annotations
 
 import argparse
+import logging
 import sys
 from pathlib import Path
 from typing import Any
@@ -132,6 +133,11 @@ def load_inputs(
         else ReadOptions().overlay({"burn_in": burn_in})[0]
     )
     model = ModelSettings(radiation=args.radiation, t_cmb=args.t_cmb, n_massive=args.n_massive)
+    for item in items:
+        if tokens and Path(item).is_dir():
+            logging.getLogger("agepost").info(
+                "--z applies to chain inputs; %s keeps the redshifts it was derived at", item
+            )
     return load_runs(
         items, labels=labels, redshifts=[float(t) for t in tokens], model=model, read=read
     )
