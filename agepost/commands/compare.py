@@ -265,16 +265,17 @@ def _redshifts(comparison: RunComparison) -> tuple[float, ...]:
 def print_comparison(comparison: RunComparison, root: Path) -> None:
     """Short text table: medians per run, then shifts with sign probability and tension."""
     key = next(iter(comparison.summaries[comparison.labels[0]][comparison.quantities[0]].intervals))
+    width = max(len(text) for text in (*comparison.labels, *comparison.pairs))
     for name in (*comparison.quantities, *comparison.parameters):
         print(name)
         for label in comparison.labels:
             s = comparison.summaries[label][name]
             lo, hi = s.intervals[key].equal_tail
-            print(f"  {label:<24} median {s.median:.6g}  {key} interval [{lo:.6g}, {hi:.6g}]")
+            print(f"  {label:<{width}} median {s.median:.6g}  {key} interval [{lo:.6g}, {hi:.6g}]")
         for pair, d in comparison.differences[name].items():
             bound = ">= " if d.tension_is_lower_bound else ""
             print(
-                f"  {pair:<24} shift  {d.median:+.4g}  P(same sign) {d.prob_same_sign:.4f}  "
+                f"  {pair:<{width}} shift  {d.median:+.4g}  P(same sign) {d.prob_same_sign:.4f}  "
                 f"tension {bound}{d.tension_sigma:.2f} sigma"
             )
     print(f"outputs in {root}")
