@@ -60,7 +60,7 @@ class SamplerSettings:
     moves : ``"differential"`` (default: emcee's differential-evolution move, 80 percent,
         with its snooker variant, 20 percent) or ``"stretch"`` (emcee's default move).
         On curved distance-data posteriors the first gave 2 to 4 times shorter
-        autocorrelation times in our trials (benchmarks/bench_fit.py prints both).
+        autocorrelation times in our trials (compare with benchmarks/bench_fit.py --moves).
     """
 
     walkers: int = 32
