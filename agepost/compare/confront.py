@@ -41,6 +41,9 @@ from agepost.stats.diagnostics import combined_ess
 from agepost.stats.quantiles import weighted_mean_std
 from agepost.stats.summary import QuantitySummary, summarise
 
+#: Samples tabulated together (about 100 MB of cosmic and lookback times per chunk).
+CHUNK_ROWS = 50_000
+
 
 @dataclasses.dataclass(frozen=True)
 class ObjectVerdict:
@@ -96,15 +99,26 @@ def confront_objects(
     """Probability, formation redshift and no-formation fraction for every object."""
     check_range(objects, z_max)
     generator = np.random.default_rng(rng)
+    n = run.n_samples
+    ages = [object_ages(obj, n, generator) for obj in objects]
+    t_object = np.empty((n, len(objects)))
+    z_formation = np.empty((n, len(objects)))
     background = run.background()
-    table = cosmic_time_table(background, [obj.z for obj in objects])
-    scale_factors, times, exclusion = table
-    check_ages(run, np.arange(run.n_samples), times[:, -1], exclusion)  # the last node is z = 0
-    verdicts = []
-    for obj in objects:
-        ages = object_ages(obj, run.n_samples, generator)
-        z_formation, t_object = formation_redshift(background, obj.z, ages, table=table)
-        verdicts.append(_verdict(run, obj, t_object, z_formation, levels))
+    for start in range(0, n, CHUNK_ROWS):  # bounded memory: the table is (rows, ~130)
+        rows = slice(start, min(start + CHUNK_ROWS, n))
+        part = background.take(rows)
+        table = cosmic_time_table(part, [obj.z for obj in objects])
+        check_ages(run, np.arange(n)[rows], table[1][:, -1], table[2])  # last node: z = 0
+        for k, obj in enumerate(objects):
+            age = ages[k]
+            age = age[rows] if isinstance(age, np.ndarray) else age
+            z_formation[rows, k], t_object[rows, k] = formation_redshift(
+                part, obj.z, age, table=table
+            )
+    verdicts = [
+        _verdict(run, obj, t_object[:, k], z_formation[:, k], levels)
+        for k, obj in enumerate(objects)
+    ]
     return verdicts
 
 

@@ -174,3 +174,19 @@ def test_stored_ages_that_the_model_does_not_reproduce_are_refused(make_run):
     )  # the ages were made without radiation
     with pytest.raises(InputError, match="do not describe its samples"):
         confront_objects(run, [AgedObject("Okapi-1", 3.2, 1.6, 0.3)], z_max=10)
+
+
+def test_results_do_not_depend_on_the_chunking(grid_run, monkeypatch):
+    import agepost.compare.confront as confront_module
+
+    objects = [
+        AgedObject("Okapi-1", 3.2, 1.75, 0.3),
+        AgedObject("Tern", 2.0, 3.0, 0.0, "lower_limit"),
+    ]
+    whole = confront_objects(grid_run, objects, z_max=10, rng=5)
+    monkeypatch.setattr(confront_module, "CHUNK_ROWS", 97)
+    pieces = confront_objects(grid_run, objects, z_max=10, rng=5)
+    for a, b in zip(whole, pieces, strict=True):
+        assert_allclose(a.p_universe_younger, b.p_universe_younger, rtol=1e-12)  # rounding only
+        assert_allclose(a.formation_z.median, b.formation_z.median, rtol=1e-12)
+        assert a.frac_no_formation == b.frac_no_formation
