@@ -64,6 +64,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             raise
         print(f"agepost: error: {error}", file=sys.stderr)
         return EXIT_USAGE
+    except BrokenPipeError:  # output piped into a command that stopped reading (head, less)
+        sys.stderr.close()
+        return 1
     except KeyboardInterrupt:
         print("agepost: interrupted; no partial outputs were kept", file=sys.stderr)
         return 130

@@ -57,6 +57,7 @@ class OutputFolder:
         os.close(handle)
         try:
             yield Path(temporary)
+            os.chmod(temporary, 0o666 & ~_current_umask())  # mkstemp makes 0600 files
             os.replace(temporary, target)
         finally:
             if os.path.exists(temporary):
@@ -77,6 +78,12 @@ class OutputFolder:
     def write_json(self, name: str, record: Any) -> Path:
         """Write a JSON document (indented, NaN written as null) atomically."""
         return self.write_text(name, dumps_json(record) + "\n")
+
+
+def _current_umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def dumps_json(record: Any) -> str:

@@ -31,3 +31,12 @@ def test_interrupted_write_leaves_nothing(tmp_path):
 def test_json_is_strict():
     text = dumps_json({"x": float("nan"), "y": [float("inf"), 1.5]})
     assert json.loads(text) == {"x": None, "y": [None, 1.5]}
+
+
+def test_files_get_ordinary_permissions(tmp_path):
+    import os
+
+    path = OutputFolder(tmp_path).write_text("c.txt", "x")
+    mask = os.umask(0)
+    os.umask(mask)
+    assert path.stat().st_mode & 0o777 == 0o666 & ~mask
