@@ -5,7 +5,7 @@ Reading
     ``dask.array`` read by the workers themselves through h5py; each block is derived by
     :func:`agepost.engines.chunk_tasks.derive_array_block` (``to_delayed`` blocks, one task
     each). Other layouts (text through pandas chunks, gzip, npy/npz, emcee backends) are
-    read by this process in blocks and each block is sent to a worker.
+    read by this process in blocks, each block sent to a worker inside its task.
 Order and memory
     At most ``2 x workers`` tasks are in flight; results come back in chain order and are
     written by this process, so the samples file is the same as with the local engine.
@@ -144,9 +144,22 @@ class DaskEngine:
             if isinstance(chain, Hdf5Chain):
                 yield from self._array_futures(chain, file, handle, chunk_rows)
             else:
-                for block in chain.blocks(chunk_rows):
-                    data = self.client.scatter(block)
-                    yield self.client.submit(derive_raw_block, data, file, handle, pure=False)
+                yield from self._block_futures(chain, file, handle, chunk_rows)
+
+    def _block_futures(
+        self, chain: layouts.ChainFile, file: FileContext, handle: Any, chunk_rows: int
+    ) -> Iterator[Any]:
+        """Futures deriving blocks read here.
+
+        Each block travels inside its task (not scattered), so the scheduler can rerun the
+        task elsewhere if its worker dies.
+        """
+        import dask
+
+        for block in chain.blocks(chunk_rows):
+            with dask.config.set({"distributed.admin.large-graph-warning-threshold": "4GiB"}):
+                future = self.client.submit(derive_raw_block, block, file, handle, pure=False)
+            yield future
 
     def _array_futures(
         self, chain: Hdf5Chain, file: FileContext, handle: Any, chunk_rows: int

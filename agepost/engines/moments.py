@@ -91,7 +91,7 @@ class Moments:
             n_rows=self.n_rows + other.n_rows,
             weight=total,
             mean=self.mean + delta * other.weight / total,
-            m2=self.m2 + other.m2 + delta * delta * self.weight * other.weight / total,
+            m2=self.m2 + other.m2 + delta * delta * self.weight * (other.weight / total),
             low=min(self.low, other.low),
             high=max(self.high, other.high),
             weight_max=top,
