@@ -8,7 +8,7 @@ from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
 from agepost.engines.grids import Grid, GridCounts, bin_index, binned_hpd
-from agepost.stats.quantiles import sort_weighted, quantiles_sorted
+from agepost.stats.quantiles import quantiles_sorted, sort_weighted
 
 
 def test_bin_index_is_numpys_histogram_assignment():
