@@ -12,7 +12,7 @@ from agepost.errors import ConfigError
 from agepost.fit.data import load_distance_data
 from agepost.fit.likelihood import Posterior
 from agepost.fit.products import FitWarning, fit_warnings, run_config_text, summary_record
-from agepost.fit.sampler import run_chain
+from agepost.fit.sampler import ChainResult, run_chain
 from agepost.fit.settings import load_fit_config
 from agepost.outputs import OutputFolder
 
@@ -71,7 +71,7 @@ def fit(args: argparse.Namespace) -> int:
         ", ".join(config.model.names),
     )
     with folder.atomic_path(CHAIN_FILE) as temporary:
-        temporary.unlink()
+        temporary.unlink()  # emcee's backend creates the file itself
         if args.resume:
             shutil.copyfile(previous, temporary)
         result = run_chain(
@@ -105,6 +105,11 @@ def fit(args: argparse.Namespace) -> int:
     )
     for message in messages:
         warnings.warn(message, FitWarning, stacklevel=2)
+    _log_outcome(result, folder.root)
+    return 0
+
+
+def _log_outcome(result: ChainResult, root: Path) -> None:
     logger.info(
         "%d steps x %d walkers, tau %s, acceptance %.2f, %s; wrote %s, %s and %s in %s",
         result.iterations,
@@ -115,7 +120,6 @@ def fit(args: argparse.Namespace) -> int:
         CHAIN_FILE,
         SUMMARY_FILE,
         RUN_CONFIG_FILE,
-        folder.root,
+        root,
     )
-    logger.info("next: agepost run %s", folder.root / RUN_CONFIG_FILE)
-    return 0
+    logger.info("next: agepost run %s", root / RUN_CONFIG_FILE)

@@ -20,6 +20,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from collections.abc import Sequence
+from typing import cast
 
 import numpy as np
 from numpy.typing import NDArray
@@ -38,7 +39,7 @@ from agepost.physics.distances import (
     transverse_comoving_distance,
     volume_averaged_distance,
 )
-from agepost.physics.times import expansion_history, hubble_distance_mpc
+from agepost.physics.times import ExpansionHistory, expansion_history, hubble_distance_mpc
 
 #: Interpolation nodes per unit of ln(1 + z) (see the module docstring for the error).
 NODES_PER_E_FOLD = 24
@@ -80,18 +81,21 @@ class ComovingDistance:
     def __call__(self, background: Background) -> NDArray[np.float64]:
         """Distances of shape (n, n_z); NaN for excluded samples."""
         if self.nodes is None or self.weights is None:
-            return expansion_history(
-                background, self.redshifts, distances=True
-            ).comoving_distance_mpc
+            return _comoving(expansion_history(background, self.redshifts, distances=True))
         history = expansion_history(background, self.nodes[1:], distances=True)
         d_h = hubble_distance_mpc(background.h0)[:, None]
-        ratio = history.comoving_distance_mpc / (d_h * np.log1p(self.nodes[1:]))
+        ratio = _comoving(history) / (d_h * np.log1p(self.nodes[1:]))
         ratio = np.concatenate([np.ones((background.size, 1)), ratio], axis=1)
         usable = (history.exclusion == Exclusion.KEPT) & np.all(np.isfinite(ratio), axis=1)
         ratio[~usable] = 0.0
         chi = (ratio @ self.weights.T) * d_h * np.log1p(self.redshifts)
         chi[~usable] = np.nan
         return chi
+
+
+def _comoving(history: ExpansionHistory) -> NDArray[np.float64]:
+    """The distances of a history computed with ``distances=True`` (never None there)."""
+    return cast(NDArray[np.float64], history.comoving_distance_mpc)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -216,7 +220,7 @@ class Posterior:
         )
         total = np.zeros(theta.shape[0])
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            chi = self.distances(background) if self.distances is not None else None
+            chi = self.distances(background) if self.distances else np.empty((theta.shape[0], 0))
             for data, covariance in zip(self.datasets, self.covariances, strict=True):
                 model = self._prediction(data, background, chi, values)
                 if data.kind == "distance_modulus":
@@ -230,7 +234,7 @@ class Posterior:
         self,
         data: DistanceData,
         background: Background,
-        chi: NDArray | None,
+        chi: NDArray[np.float64],
         values: dict[str, NDArray],
     ) -> NDArray[np.float64]:
         """Model values for one data set, shape (n, n_data)."""

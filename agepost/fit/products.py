@@ -15,6 +15,7 @@ from typing import Any
 
 import emcee
 import numpy as np
+from numpy.typing import NDArray
 
 from agepost import __version__
 from agepost.fit.data import DistanceData
@@ -69,19 +70,7 @@ def summary_record(
     samples = emcee.backends.HDFBackend(
         str(chain_path), name=BACKEND_GROUP, read_only=True
     ).get_chain(discard=result.discard, thin=result.thin, flat=True)
-    parameters = {}
-    for column, parameter in enumerate(model.free):
-        values = samples[:, column]
-        q = np.quantile(values, [0.025, 0.16, 0.5, 0.84, 0.975])
-        parameters[parameter.name] = {
-            "median": q[2],
-            "interval_68": [q[1], q[3]],
-            "interval_95": [q[0], q[4]],
-            "mean": float(np.mean(values)),
-            "sd": float(np.std(values, ddof=1)) if values.size > 1 else None,
-            "start": float(result.start[column]),
-            "prior": parameter.prior.describe(),
-        }
+    parameters = _parameter_summaries(samples, result, model)
     return {
         "tool": f"agepost {__version__} fit",
         "created": datetime.datetime.now(datetime.UTC).isoformat(timespec="seconds"),
@@ -117,7 +106,7 @@ def summary_record(
             "use": "SeedSequence(seed).spawn(2): initial ball, then emcee's generator; "
             "a resumed run continues from the generator state stored in the chain file",
         },
-        "max_log_posterior_start": result.start_log_posterior,
+        "start_log_posterior": result.start_log_posterior,
         "data": [
             {"kind": d.kind, "file": d.source, "points": d.size, "sha256": d.checksums}
             for d in datasets
@@ -128,6 +117,26 @@ def summary_record(
         if result.wall_time_s > 0
         else None,
     }
+
+
+def _parameter_summaries(
+    samples: NDArray[np.float64], result: ChainResult, model: FitModel
+) -> dict[str, Any]:
+    """Median, equal-tailed 68 and 95 percent intervals, mean, sd, start and prior per parameter."""
+    parameters = {}
+    for column, parameter in enumerate(model.free):
+        values = samples[:, column]
+        q = np.quantile(values, [0.025, 0.16, 0.5, 0.84, 0.975])
+        parameters[parameter.name] = {
+            "median": q[2],
+            "interval_68": [q[1], q[3]],
+            "interval_95": [q[0], q[4]],
+            "mean": float(np.mean(values)),
+            "sd": float(np.std(values, ddof=1)) if values.size > 1 else None,
+            "start": float(result.start[column]),
+            "prior": parameter.prior.describe(),
+        }
+    return parameters
 
 
 def run_config_text(

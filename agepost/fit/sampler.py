@@ -199,17 +199,25 @@ def run_chain(
     draws a progress bar on a terminal (see :mod:`agepost.progress`).
     """
     names = posterior.model.names
-    n_free = len(names)
-    if settings.walkers < 2 * n_free:
+    if settings.walkers < 2 * len(names):
         raise ConfigError(
-            f"{settings.walkers} walkers are too few for {n_free} free parameters; "
-            f"use at least {2 * n_free}"
+            f"{settings.walkers} walkers are too few for {len(names)} free parameters; "
+            f"use at least {2 * len(names)}"
         )
     clock = time.perf_counter()
     evaluations_before = posterior.evaluations
     memory = emcee.backends.Backend()
+    sampler = emcee.EnsembleSampler(
+        settings.walkers,
+        len(names),
+        posterior,
+        vectorize=True,
+        backend=memory,
+        moves=_moves(settings.moves),
+    )
     if resume:
         seed = _load_for_resume(chain_path, memory, names=names, walkers=settings.walkers)
+        sampler.random_state = memory.random_state
         last = memory.get_last_sample()
         start, start_value = (
             last.coords[int(np.argmax(last.log_prob))],
@@ -217,32 +225,8 @@ def run_chain(
         )
         initial = None
     else:
-        seed = (
-            settings.seed
-            if settings.seed is not None
-            else int(np.random.SeedSequence().entropy % 2**63)
-        )
-        ball_seed, emcee_seed = np.random.SeedSequence(seed).spawn(2)
-        start, start_value = find_start(posterior)
-        initial = initial_ball(
-            posterior,
-            start,
-            walkers=settings.walkers,
-            ball=settings.ball,
-            rng=np.random.default_rng(ball_seed),
-        )
-        memory.reset(settings.walkers, n_free)
+        seed, start, start_value, initial = _fresh_start(posterior, sampler, settings)
         _create_file(chain_path, names=names, walkers=settings.walkers, seed=seed)
-    sampler = emcee.EnsembleSampler(
-        settings.walkers,
-        n_free,
-        posterior,
-        vectorize=True,
-        backend=memory,
-        moves=_moves(settings.moves),
-    )
-    if not resume:
-        sampler.random_state = np.random.RandomState(np.random.MT19937(emcee_seed)).get_state()
     resumed_from = memory.iteration
     with progress(settings.max_steps, label="sampling", enabled=show_progress) as bar:
         bar.advance(memory.iteration)
@@ -267,6 +251,27 @@ def run_chain(
         discard=min(math.ceil(2 * np.max(tau)), iterations // 2) if finite else iterations // 2,
         thin=max(1, int(0.5 * np.min(tau))) if finite else 1,
     )
+
+
+def _fresh_start(
+    posterior: Posterior, sampler: emcee.EnsembleSampler, settings: SamplerSettings
+) -> tuple[int, NDArray[np.float64], float, NDArray[np.float64]]:
+    """Seed, maximum-posterior start, its log-posterior and the initial ball; seeds the sampler."""
+    seed = (
+        settings.seed if settings.seed is not None else int(np.random.default_rng().integers(2**63))
+    )
+    ball_seed, emcee_seed = np.random.SeedSequence(seed).spawn(2)
+    start, start_value = find_start(posterior)
+    initial = initial_ball(
+        posterior,
+        start,
+        walkers=settings.walkers,
+        ball=settings.ball,
+        rng=np.random.default_rng(ball_seed),
+    )
+    sampler.backend.reset(settings.walkers, len(start))
+    sampler.random_state = np.random.RandomState(np.random.MT19937(emcee_seed)).get_state()
+    return seed, start, start_value, initial
 
 
 def _sample_until_converged(
