@@ -6,6 +6,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import integrate
 
 from agepost.errors import ConfigError
@@ -192,3 +194,18 @@ def test_sound_horizon_and_ratio_data_go_together(make_synthetic, rng):
         Posterior(data[:2], with_rd)
     with pytest.raises(ConfigError, match="no data set given"):
         Posterior([], model)
+
+
+@given(shift=st.floats(-30.0, 30.0), seed=st.integers(0, 2**32 - 1))
+@settings(max_examples=40, deadline=None)
+def test_marginalised_likelihood_ignores_a_common_offset(shift, seed):
+    # law: the offset is integrated out, so adding one constant to every residual changes nothing
+    rng = np.random.default_rng(seed)
+    factored = FactoredCovariance.from_matrix(random_covariance(rng, 5))
+    residuals = rng.standard_normal((1, 5))
+    np.testing.assert_allclose(
+        offset_marginalised_log_likelihood(residuals + shift, factored),
+        offset_marginalised_log_likelihood(residuals, factored),
+        rtol=0,
+        atol=1e-8 * (1 + shift**2),  # rounding of A - B^2/E grows with the shift squared
+    )
