@@ -150,14 +150,29 @@ def _batch_sums(
 ) -> NDArray:
     """Rows (1 + n_thresholds, 2 + n_batches): per series, sum, sum of squares, batch sums.
 
-    The values are shifted by ``centre`` (their mean) so the sums of squares keep their digits.
+    The values are shifted by ``centre`` (their mean) so the sums of squares keep their
+    digits. A chain's rows come in order with consecutive ``within`` positions, so each
+    batch is a run of rows and all but the first and last in a slice are whole.
     """
     n_batches = n // batch
-    series = np.vstack([x - centre, *(x <= t for t in thresholds)]).astype(np.float64)
+    series = np.empty((1 + len(thresholds), x.size))
+    series[0] = x - centre
+    np.less_equal(x[None, :], np.asarray(thresholds)[:, None], out=series[1:], casting="unsafe")
+    sums = np.zeros((series.shape[0], n_batches))
     index = within // batch
-    inside = index < n_batches
-    sums = np.stack([np.bincount(index[inside], s[inside], minlength=n_batches) for s in series])
-    return np.column_stack((series.sum(axis=1), (series**2).sum(axis=1), sums))
+    used = int(np.count_nonzero(index < n_batches))  # rows past the last whole batch end it
+    if used:
+        first, last = int(index[0]), int(index[used - 1])
+        head = int(np.count_nonzero(index[:used] == first))
+        tail = used - int(np.count_nonzero(index[:used] == last)) if last > first else used
+        sums[:, first] = series[:, :head].sum(axis=1)
+        if last > first:  # whole batches in between, then the last (partial) one
+            middle = series[:, head:tail].reshape(series.shape[0], -1, batch)
+            sums[:, first + 1 : last] = middle.sum(axis=2)
+            sums[:, last] = series[:, tail:used].sum(axis=1)
+    totals = series.sum(axis=1)
+    squares = np.append((series[0] ** 2).sum(), totals[1:])  # indicators: x^2 = x
+    return np.column_stack((totals, squares, sums))
 
 
 def combine_chain(a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:

@@ -70,7 +70,7 @@ class DaskEngine:
                 n_workers=workers or os.cpu_count() or 1,
                 threads_per_worker=1,
                 processes=True,
-                dashboard_address=None,
+                dashboard_address=":0",
                 silence_logs=logging.ERROR,
             )
             self.client = distributed.Client(self._cluster, set_as_default=False)

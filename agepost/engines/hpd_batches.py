@@ -49,7 +49,9 @@ def batch_piece(rows: RowSlice, plan: BatchPlan) -> dict[BatchJob, NDArray[np.fl
     out = {}
     with h5py.File(plan.path, "r") as handle:
         counted = read_rows(handle, rows)
-        n_rows = np.array([plan.chain_rows[int(c)] for c in counted.chain_id], dtype=np.int64)
+        chains = np.array(sorted(plan.chain_rows))
+        totals = np.array([plan.chain_rows[c] for c in chains], dtype=np.int64)
+        n_rows = totals[np.searchsorted(chains, counted.chain_id)]
         columns: dict[str, NDArray] = {}
         for job in plan.jobs:
             if job.quantity not in columns:

@@ -8,7 +8,9 @@ algorithm for computing sample variances"): with ``d = mean_b - mean_a`` and
     mean = mean_a + d W_b / W,    M2 = M2_a + M2_b + d^2 W_a W_b / W,
 
 so the merged mean and ``M2 = sum w (x - mean)^2`` equal those of the joined chunks in
-exact arithmetic, whatever the order (in floating point they agree to rounding). Kish's
+exact arithmetic, whatever the order (in floating point they agree to rounding). Sums use
+numpy's pairwise summation, not BLAS, so a chunk gives the same bits in any process
+whatever its thread count. Kish's
 sums are kept scaled by the largest weight, as :func:`agepost.stats.quantiles.kish_ess`
 scales them, so very large weights do not overflow.
 """
@@ -62,19 +64,19 @@ class Moments:
         if x.size == 0:
             return cls()
         total = float(w.sum())
-        mean = float(np.dot(w, x) / total)
+        mean = float((w * x).sum() / total)
         top = float(w.max())
         scaled = w / top
         return cls(
             n_rows=int(x.size),
             weight=total,
             mean=mean,
-            m2=float(np.dot(w, (x - mean) ** 2)),
+            m2=float((w * (x - mean) ** 2).sum()),
             low=float(x.min()),
             high=float(x.max()),
             weight_max=top,
             scaled_sum=float(scaled.sum()),
-            scaled_sum_sq=float(np.dot(scaled, scaled)),
+            scaled_sum_sq=float((scaled * scaled).sum()),
         )
 
     def merge(self, other: Moments) -> Moments:

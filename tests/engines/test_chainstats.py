@@ -116,3 +116,23 @@ def test_chain_units_respect_the_memory_budget():
     assert covered == {(c, q) for c in (0, 1, 3) for q in "abc"}
     # Units read only the slices holding their chains: never the one holding chain 2 alone.
     assert all(1200 not in [s.start for s in u.slices] for u in units)
+
+
+def test_batch_sums_of_a_chain_cut_into_slices_anywhere_add_up():
+    from agepost.engines.chainstats import _batch_sums
+
+    rng = np.random.default_rng(25)
+    n, batch = 10_007, 100  # 100 whole batches, 7 rows past the last one
+    x = rng.normal(size=n)
+    thresholds = np.array([-0.5, 0.0, 1.0])
+    cuts = [0, 1, 150, 151, 4_999, 9_999, 10_003, n]
+    total = sum(
+        _batch_sums(x[a:b], np.arange(a, b), batch, n, thresholds, 0.0)
+        for a, b in zip(cuts[:-1], cuts[1:], strict=True)
+    )
+    whole = x[: 100 * batch].reshape(100, batch)
+    assert_allclose(total[0, 2:], whole.sum(axis=1), rtol=1e-12)
+    for k, t in enumerate(thresholds, start=1):
+        assert np.array_equal(total[k, 2:], (whole <= t).sum(axis=1))
+        assert total[k, 0] == total[k, 1] == np.count_nonzero(x <= t)
+    assert_allclose(total[0, :2], [x.sum(), (x**2).sum()], rtol=1e-12)
