@@ -150,29 +150,30 @@ def _batch_sums(
 ) -> NDArray:
     """Rows (1 + n_thresholds, 2 + n_batches): per series, sum, sum of squares, batch sums.
 
-    The values are shifted by ``centre`` (their mean) so the sums of squares keep their
-    digits. A chain's rows come in order with consecutive ``within`` positions, so each
-    batch is a run of rows and all but the first and last in a slice are whole.
+    The series are the values shifted by ``centre`` (their mean, so the sums of squares
+    keep their digits) and each indicator ``x <= t``. A chain's rows come in order with
+    consecutive ``within`` positions, so each batch is a run of rows and all but the first
+    and last in a slice are whole. One series is held at a time.
     """
     n_batches = n // batch
-    series = np.empty((1 + len(thresholds), x.size))
-    series[0] = x - centre
-    np.less_equal(x[None, :], np.asarray(thresholds)[:, None], out=series[1:], casting="unsafe")
-    sums = np.zeros((series.shape[0], n_batches))
+    out = np.zeros((1 + len(thresholds), 2 + n_batches))
     index = within // batch
     used = int(np.count_nonzero(index < n_batches))  # rows past the last whole batch end it
-    if used:
-        first, last = int(index[0]), int(index[used - 1])
-        head = int(np.count_nonzero(index[:used] == first))
-        tail = used - int(np.count_nonzero(index[:used] == last)) if last > first else used
-        sums[:, first] = series[:, :head].sum(axis=1)
+    first, last = (int(index[0]), int(index[used - 1])) if used else (0, 0)
+    head = int(np.count_nonzero(index[:used] == first))
+    tail = used - int(np.count_nonzero(index[:used] == last)) if last > first else used
+    for row in range(out.shape[0]):
+        series = x - centre if row == 0 else (x <= thresholds[row - 1]).astype(np.float64)
+        out[row, 0] = series.sum()
+        out[row, 1] = (series**2).sum() if row == 0 else out[row, 0]  # indicators: x^2 = x
+        if not used:
+            continue
+        sums = out[row, 2:]
+        sums[first] = series[:head].sum()
         if last > first:  # whole batches in between, then the last (partial) one
-            middle = series[:, head:tail].reshape(series.shape[0], -1, batch)
-            sums[:, first + 1 : last] = middle.sum(axis=2)
-            sums[:, last] = series[:, tail:used].sum(axis=1)
-    totals = series.sum(axis=1)
-    squares = np.append((series[0] ** 2).sum(), totals[1:])  # indicators: x^2 = x
-    return np.column_stack((totals, squares, sums))
+            sums[first + 1 : last] = series[head:tail].reshape(-1, batch).sum(axis=1)
+            sums[last] = series[tail:used].sum()
+    return out
 
 
 def combine_chain(a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:

@@ -2,7 +2,8 @@
 
 A block is turned into canonical samples exactly as :func:`agepost.chains.iter_chain_chunks`
 turns it (burn-in and thinning by step number, :func:`agepost.chains.reader.block_to_samples`
-for columns, weights and NaN counts), then derived with :func:`agepost.derive.derive_chunks`.
+for columns, weights and NaN counts), then derived with :func:`agepost.derive.derive` (in
+slices of ``DERIVE_CHUNK_ROWS``, as the local engine does).
 These functions import nothing from Dask, so workers need only agepost itself.
 """
 
@@ -20,7 +21,7 @@ from agepost.chains.blocks import RawBlock, burn_and_thin
 from agepost.chains.checks import ChainWarning
 from agepost.chains.layouts import ChainFile
 from agepost.chains.reader import block_to_samples
-from agepost.derive import ModelSettings, derive_chunks
+from agepost.derive import ModelSettings, derive
 from agepost.engines.derive_pass import ChunkResult, chunk_result
 
 
@@ -67,8 +68,9 @@ def derive_raw_block(
     with warnings.catch_warnings():  # shown once per file by the driver, from its first rows
         warnings.simplefilter("ignore", ChainWarning)
         samples = block_to_samples(kept, context.options, chain_offset=file.chain_offset)
-    derived = next(derive_chunks([samples], context.redshifts, model=context.model))
-    return file.index, chunk_result(samples, derived)
+    return file.index, chunk_result(
+        samples, derive(samples, context.redshifts, model=context.model)
+    )
 
 
 def derive_array_block(

@@ -6,7 +6,7 @@ from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
 from agepost.chains import iter_chain_chunks
-from agepost.derive import derive_chunks
+from agepost.derive import derive
 from agepost.engines.derive_pass import ChunkResult, chunk_result
 
 
@@ -22,11 +22,14 @@ class LocalEngine:
         self.close()
 
     def derived_chunks(self, settings: Any, *, chunk_rows: int) -> Iterator[ChunkResult]:
-        """Read with :func:`agepost.chains.iter_chain_chunks`, derive each chunk as it comes."""
+        """Read with :func:`agepost.chains.iter_chain_chunks`, derive each chunk as it comes.
+
+        :func:`agepost.derive.derive` works through a chunk in slices of
+        ``DERIVE_CHUNK_ROWS``, which bounds the physics' working memory.
+        """
         chunks = iter_chain_chunks(list(settings.chain_files), settings.read, chunk_rows=chunk_rows)
         for samples in chunks:
-            derived = next(derive_chunks([samples], settings.redshifts, model=settings.model))
-            yield chunk_result(samples, derived)
+            yield chunk_result(samples, derive(samples, settings.redshifts, model=settings.model))
 
     def map_ordered(
         self, function: Callable[[Any, Any], Any], items: Iterable[Any], *, shared: Any = None
