@@ -33,10 +33,9 @@ from pathlib import Path
 from typing import Any
 
 from agepost.chains.options import ReadOptions
-from agepost.derive import ModelSettings
+from agepost.derive import ModelSettings, unique_redshifts
 from agepost.errors import ConfigError
 from agepost.physics.background import DEFAULTS
-from agepost.physics.times import validate_redshifts
 
 SECTIONS = ("chain", "model", "quantities", "output")
 _MODEL_KEYS = ("radiation", "t_cmb", "n_massive", "assume")
@@ -150,9 +149,7 @@ def _redshifts(values: Any, *, where: str) -> tuple[float, ...]:
     if not isinstance(values, list | tuple):
         raise ConfigError(f"{where}: redshifts must be a list of numbers, e.g. [0.5, 1, 2]")
     try:
-        return tuple(
-            float(z) for z in validate_redshifts([_number(v, f"{where} redshifts") for v in values])
-        )
+        return unique_redshifts([_number(v, f"{where} redshifts") for v in values])
     except ConfigError as error:
         raise ConfigError(f"{where}: {error.message}") from None
 

@@ -53,6 +53,14 @@ def redshift_label(z: float) -> str:
     return np.format_float_positional(float(z), trim="-")
 
 
+def unique_redshifts(redshifts: Iterable[float]) -> tuple[float, ...]:
+    """Valid redshifts in the order given, each value once (1 and 1.0 are one value)."""
+    first: dict[str, float] = {}
+    for z in validate_redshifts(tuple(redshifts)):
+        first.setdefault(redshift_label(z), float(z))
+    return tuple(first.values())
+
+
 def quantity_names(redshifts: Iterable[float]) -> list[str]:
     """Derived quantity names: ``age``, then ``lookback_z<z>`` and ``cosmic_time_z<z>``."""
     names = ["age"]
@@ -122,7 +130,7 @@ def derive_chunks(
 ) -> Iterator[DerivedSamples]:
     """Derive chunk by chunk, for chains read in pieces; memory is bounded by the chunk."""
     model = model or ModelSettings()
-    z = tuple(float(v) for v in validate_redshifts(tuple(redshifts)))
+    z = unique_redshifts(redshifts)
     names = quantity_names(z)
     for chunk in chunks:
         arrays, filled = parameter_arrays(chunk, model)

@@ -45,3 +45,10 @@ def test_invalid_configs_name_the_problem(tmp_path, text, expected):
 def test_missing_file(tmp_path):
     with pytest.raises(ConfigError, match="does not exist"):
         settings_from_config(tmp_path / "nope.toml")
+
+
+def test_repeated_redshifts_are_kept_once(tmp_path):
+    settings = settings_from_config(
+        write(tmp_path, '[chain]\nfiles = ["a"]\n[quantities]\nredshifts = [1, 0.5, 1.0, 2, 0.5]\n')
+    )
+    assert settings.redshifts == (1.0, 0.5, 2.0)

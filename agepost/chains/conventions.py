@@ -28,6 +28,10 @@ from agepost.chains.expressions import is_plain_name, parse_expression
 from agepost.chains.options import ReadOptions
 from agepost.chains.sampleset import CANONICAL_PARAMETERS
 from agepost.errors import ChainFormatError
+from agepost.physics.background import DEFAULTS
+
+#: Omega_nu h^2 = sum m_nu / 93.14 eV for non-relativistic neutrinos (Mangano et al. 2005).
+NEUTRINO_EV_PER_OMEGA_H2 = 93.14
 
 #: Column names recognised without a mapping, by the quantity they hold. ``h`` and the
 #: lower-case physical densities ``omega_x = Omega_x h^2`` are converted.
@@ -225,9 +229,28 @@ class _State:
         else:
             summed = [p for p in parts if p is not None]
         total = sum(np.asarray(self.columns[c], dtype=float) for c in summed)
+        origin = f"({' + '.join(summed)}) / ({h_text})^2"
+        if physical is None and parts[2] is None:
+            # Omega_m counts massive neutrinos (DESIGN.md); omega_b + omega_c does not.
+            m_nu, m_nu_text = self.neutrino_mass()
+            total = total + m_nu / NEUTRINO_EV_PER_OMEGA_H2
+            origin = f"({' + '.join(summed)} + {m_nu_text}/93.14 eV) / ({h_text})^2"
+            self.notes.append(
+                f"Omega_m: no omega_nu column, so the massive neutrinos ({m_nu_text}, "
+                "Omega_nu h^2 = sum m_nu / 93.14 eV) were added to omega_b + omega_c"
+            )
         self.values["Omega_m"] = np.broadcast_to(total / np.square(h), np.shape(total)).copy()
-        self.origins["Omega_m"] = f"({' + '.join(summed)}) / ({h_text})^2"
+        self.origins["Omega_m"] = origin
         self.used.update(summed)
+
+    def neutrino_mass(self) -> tuple[NDArray | float, str]:
+        """Sum of neutrino masses (eV) per row for the omega_nu fill-in, and its description."""
+        column = find_alias(self.columns, "m_nu", source=self.source)
+        if column is not None:
+            return np.asarray(self.columns[column], dtype=float), f"column {column}"
+        if "m_nu" in self.fixed:
+            return float(self.fixed["m_nu"]), f"fixed m_nu = {self.fixed['m_nu']} eV"
+        return DEFAULTS["m_nu"], f"default m_nu = {DEFAULTS['m_nu']} eV"
 
     def find_plain(self, name: str) -> None:
         column = find_alias(self.columns, name, source=self.source)

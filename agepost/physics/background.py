@@ -59,7 +59,7 @@ class Background:
     wa: NDArray[np.float64]
     omega_cb: NDArray[np.float64]  # matter without the massive neutrinos
     omega_radiation: NDArray[np.float64]  # photons + massless neutrinos, scaling as a^-4
-    omega_nu_species: NDArray[np.float64]  # one massive species if it were massless
+    omega_nu_species: NDArray[np.float64]  # one massive species if it were massless (0 if m_nu = 0)
     n_massive: int
     ln_y_today: NDArray[np.float64]  # ln(m_i c^2 / k T_nu) of each massive species today
     omega_de: NDArray[np.float64]
@@ -230,25 +230,30 @@ def make_background(
         * p["n_eff"]
         / constants.N_NEUTRINO_SPECIES
     )
-    zeros = np.zeros(n)
     if radiation == "none":
-        omega_gamma, species = zeros, zeros
+        omega_gamma, species = np.zeros(n), np.zeros(n)
     massive = n_massive if radiation == "full" else 0
     t_nu_k = (
         p["t_cmb"]
         * constants.NEUTRINO_TEMPERATURE_RATIO
         * (p["n_eff"] / constants.N_NEUTRINO_SPECIES) ** 0.25
     )
+    # Rows whose "massive" species really carry mass; with m_nu = 0 (or no relic neutrinos
+    # at all, N_eff = 0 or T_cmb = 0) those species are plain radiation.
+    has_mass = (p["m_nu"] > 0) & (t_nu_k > 0) & (species > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        ln_y_today = np.log(p["m_nu"] / max(massive, 1) / (constants.BOLTZMANN_EV_K * t_nu_k))
-    ln_y_today = np.where(np.isnan(ln_y_today), -np.inf, ln_y_today)
-    omega_nu_massive_today = massive * species * energy_density_ratio_from_log(ln_y_today)
+        ln_y = np.log(p["m_nu"] / max(massive, 1) / (constants.BOLTZMANN_EV_K * t_nu_k))
+    ln_y_today = np.where(has_mass, ln_y, -np.inf)
+    massive_species = np.where(has_mass, species, 0.0)
+    omega_nu_massive_today = massive * massive_species * energy_density_ratio_from_log(ln_y_today)
     omega_cb = p["omega_m"] - omega_nu_massive_today
     below = ok & (omega_cb < 0)
     exclusion[below] = Exclusion.MATTER_BELOW_NEUTRINOS
-    omega_massless = omega_gamma + (constants.N_NEUTRINO_SPECIES - massive) * species
-    if radiation == "none":
-        omega_massless = zeros
+    omega_massless = (
+        omega_gamma
+        + (constants.N_NEUTRINO_SPECIES - massive) * species
+        + massive * (species - massive_species)
+    )
     omega_de = 1.0 - p["omega_k"] - p["omega_m"] - omega_massless
     return Background(
         h0=p["h0"],
@@ -258,7 +263,7 @@ def make_background(
         wa=p["wa"],
         omega_cb=np.where(below, 0.0, omega_cb),
         omega_radiation=omega_massless,
-        omega_nu_species=species,
+        omega_nu_species=massive_species,
         n_massive=massive,
         ln_y_today=ln_y_today,
         omega_de=omega_de,

@@ -111,7 +111,9 @@ def integrated_time(series: ArrayLike, *, c: float = WINDOW_C) -> float:
 
     Returns
     -------
-    float in ``[1/n, n]`` rows; a constant chain returns ``n``.
+    float in ``[1/log10(n), n]`` rows; a constant chain returns ``n``. The floor caps the
+    effective size of an anti-correlated chain at ``n log10(n)``, as Vehtari et al. (2021)
+    do.
     """
     rho = autocorrelation(series)
     n = rho.size
@@ -121,7 +123,7 @@ def integrated_time(series: ArrayLike, *, c: float = WINDOW_C) -> float:
     lags = np.arange(n)
     inside = lags < c * taus
     window = int(np.argmin(inside)) if not np.all(inside) else n - 1
-    return float(min(max(taus[window], 1.0 / n), n))
+    return float(min(max(taus[window], 1.0 / np.log10(max(n, 10))), n))
 
 
 def autocorr_ess(values: ArrayLike, chain_id: ArrayLike) -> AutocorrESS:
@@ -164,6 +166,14 @@ def _normal_scores(x: NDArray[np.float64]) -> NDArray[np.float64]:
     return special.ndtri((ranks - 0.375) / (x.size + 0.25))
 
 
+def _comparable_chains(x: NDArray[np.float64], ids: NDArray) -> tuple[NDArray, NDArray]:
+    """Leave out chains shorter than half the median chain length: R-hat assumes chains
+    of similar length, and a very short chain's noisy mean would raise a false alarm."""
+    _, inverse, counts = np.unique(ids, return_inverse=True, return_counts=True)
+    keep = (counts >= 0.5 * np.median(counts))[inverse]
+    return x[keep], ids[keep]
+
+
 def split_rhat(values: ArrayLike, chain_id: ArrayLike) -> float | None:
     """Rank-normalised split R-hat (Vehtari et al. 2021); None when it is not defined.
 
@@ -181,6 +191,9 @@ def split_rhat(values: ArrayLike, chain_id: ArrayLike) -> float | None:
     """
     x = np.asarray(values, dtype=np.float64)
     ids = np.asarray(chain_id)
+    if np.unique(ids).size < 2:
+        return None
+    x, ids = _comparable_chains(x, ids)
     if np.unique(ids).size < 2:
         return None
     bulk = _normal_scores(x)

@@ -93,6 +93,8 @@ def sort_weighted(values: ArrayLike, weights: ArrayLike | None = None) -> Sorted
         Non-negative weights (None means all 1).
     """
     x, w = check_weighted(values, weights)
+    keep = w > 0  # zero-weight rows are legal but are not part of the distribution
+    x, w = x[keep], w[keep]
     order = np.argsort(x, kind="stable")
     x, w = x[order], w[order]
     starts = np.flatnonzero(np.r_[True, x[1:] != x[:-1]])

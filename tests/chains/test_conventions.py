@@ -129,3 +129,17 @@ def test_omega_lambda_mismatch_is_reported_not_ignored():
     with pytest.warns(ChainWarning, match="does not close.*= 0.05.*mapping.Omega_k"):
         resolved = _resolve({"H0": [67.5], "Omega_m": [0.3], "Omega_Lambda": [0.65]})
     assert any("does not close" in note for note in resolved.notes)
+
+
+def test_baryon_plus_cdm_densities_get_the_neutrinos_added(tmp_path):
+    # Omega_m counts massive neutrinos (DESIGN.md); a chain of omega_b and omega_c lacks
+    # them, so Omega_nu h^2 = m_nu / 93.14 eV (Mangano et al. 2005) is added. Hand
+    # calculation: (0.02237 + 0.1200 + 0.06/93.14) / 0.6736^2 = 0.315187...
+    from agepost.chains import ReadOptions, read_chains
+
+    path = tmp_path / "physical.txt"
+    path.write_text("h omega_b omega_c\n0.6736 0.02237 0.1200\n")
+    samples = read_chains(path, ReadOptions(fixed={"m_nu": 0.06}))
+    expected = (0.02237 + 0.1200 + 0.06 / 93.14) / 0.6736**2
+    assert abs(samples.parameters["Omega_m"][0] - expected) < 1e-12
+    assert any("93.14" in note for note in samples.notes)

@@ -44,7 +44,34 @@ def test_photon_density():
 def test_massive_neutrinos_are_inside_omega_m():
     # Convention: the present massive-neutrino density is part of Omega_m, so the dark
     # energy density does not depend on m_nu.
-    light = make_background(h0=70.0, omega_m=0.3, m_nu=0.0)
+    light = make_background(h0=70.0, omega_m=0.3, m_nu=0.05)
     heavy = make_background(h0=70.0, omega_m=0.3, m_nu=0.5)
     assert_allclose(light.omega_de, heavy.omega_de, rtol=1e-15)
     assert heavy.omega_cb[0] < light.omega_cb[0]
+
+
+def test_zero_mass_neutrinos_are_radiation_not_matter():
+    # With m_nu = 0 the "massive" species is radiation: nothing is taken out of Omega_m, and
+    # the full model equals the massless model exactly (same Friedmann equation).
+    full = make_background(h0=70.0, omega_m=[0.3, 0.0], omega_k=[0.0, 1.0], m_nu=0.0)
+    massless = make_background(
+        h0=70.0, omega_m=[0.3, 0.0], omega_k=[0.0, 1.0], radiation="massless"
+    )
+    assert_allclose(full.omega_cb, [0.3, 0.0], rtol=0, atol=0)
+    a = np.geomspace(1e-6, 1.0, 50)
+    assert_allclose(
+        full.scaled_h2(np.tile(a, (2, 1))), massless.scaled_h2(np.tile(a, (2, 1))), rtol=1e-14
+    )
+
+
+@pytest.mark.parametrize("setting", [{"n_eff": 0.0}, {"t_cmb": 0.0}])
+def test_no_relic_neutrinos_is_a_valid_universe(setting):
+    # N_eff = 0 (or T_cmb = 0) removes the neutrinos; the age stays finite and close to
+    # the no-radiation value (textbook flat matter + Lambda, arcsinh closed form).
+    from agepost.physics.times import expansion_history
+
+    history = expansion_history(make_background(h0=70.0, omega_m=0.3, **setting))
+    omega_l = 0.7
+    closed = 2 / (3 * np.sqrt(omega_l)) * np.arcsinh(np.sqrt(omega_l / 0.3)) * 977.792 / 70.0
+    assert history.exclusion[0] == 0
+    assert abs(history.age_gyr[0] - closed) < 0.01

@@ -143,3 +143,22 @@ def test_rhat_flags_different_spread_through_the_folded_draws():
 def test_rhat_not_defined():
     assert split_rhat(np.arange(10.0), np.zeros(10)) is None  # one chain
     assert split_rhat(np.arange(6.0), [0, 0, 0, 1, 1, 1]) is None  # halves of one row
+
+
+def test_rhat_ignores_a_very_short_converged_chain():
+    # Converged iid chains of very different lengths must not raise the 1.01 alarm
+    # (the classical statistic assumes equal lengths; Vehtari et al. 2021).
+    rng = np.random.default_rng(11)
+    values = rng.standard_normal(4008)
+    chain_id = np.r_[np.zeros(4000, int), np.ones(8, int)]
+    other = rng.standard_normal(4000)
+    both = np.r_[values[:4000], other]
+    assert split_rhat(values, chain_id) is None  # one usable chain left
+    rhat = split_rhat(both, np.r_[np.zeros(4000, int), np.ones(4000, int)])
+    assert rhat is not None and rhat < 1.01
+
+
+def test_anticorrelated_chain_ess_is_capped():
+    # An alternating chain has tau -> 0; its ESS is capped at n log10(n) (Vehtari et al. 2021).
+    series = np.tile([1.0, -1.0], 500)
+    assert integrated_time(series) >= 1.0 / np.log10(series.size)

@@ -112,10 +112,11 @@ def test_weight_two_equals_duplicated_row(values, data):
 
 
 def test_ties_are_merged():
+    # Ties merge; the zero-weight row (3.0) is not part of the distribution.
     sample = sort_weighted([2.0, 1.0, 2.0, 3.0], [1.0, 2.0, 1.0, 0.0])
-    assert_allclose(sample.values, [1, 2, 3])
-    assert_allclose(sample.weights, [0.5, 0.5, 0.0])
-    assert_allclose(sample.positions, [0.25, 0.75, 1.0])
+    assert_allclose(sample.values, [1, 2])
+    assert_allclose(sample.weights, [0.5, 0.5])
+    assert_allclose(sample.positions, [0.25, 0.75])
 
 
 @pytest.mark.parametrize(
@@ -138,3 +139,11 @@ def test_bad_input_is_named(values, weights, error, words):
 def test_probability_outside_unit_interval():
     with pytest.raises(InputError, match=r"\[0, 1\]"):
         weighted_quantile([1.0, 2.0], 1.5)
+
+
+def test_zero_weight_rows_do_not_move_quantiles():
+    # A zero weight removes the row from the distribution (common practice for multiplicities).
+    assert np.allclose(weighted_quantile([1.0, 2.0, 3.0], [0.25, 0.5, 0.75], [0.0, 1.0, 0.0]), 2.0)
+    with_zero = weighted_quantile([1.0, 2.9, 3.0], [0.5], [1.0, 0.0, 1.0])
+    without = weighted_quantile([1.0, 3.0], [0.5], [1.0, 1.0])
+    assert np.allclose(with_zero, without)
