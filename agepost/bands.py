@@ -14,7 +14,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from agepost.chains.sampleset import SampleSet
-from agepost.derive import DerivedSamples, ModelSettings, parameter_arrays
+from agepost.derive import ModelSettings, parameter_arrays
 from agepost.physics.background import make_background
 from agepost.physics.times import expansion_history
 from agepost.stats.resample import weighted_subsample
@@ -54,30 +54,41 @@ def default_grid(redshifts: tuple[float, ...]) -> NDArray[np.float64]:
 
 def redshift_band(
     samples: SampleSet,
-    derived: DerivedSamples,
     model: ModelSettings,
     *,
     grid: NDArray[np.float64],
+    n_population: int | None = None,
     max_samples: int = BAND_SAMPLES,
     rng: np.random.Generator | int | None = BAND_SEED,
 ) -> RedshiftBand:
-    """t(z) and lookback time on ``grid`` for the kept samples (or a weighted subsample)."""
-    kept = np.flatnonzero(derived.kept & (derived.weights > 0))
-    weights = derived.weights[kept]
-    if kept.size > max_samples:
-        rows = kept[weighted_subsample(weights, max_samples, rng=rng)]
+    """t(z) and lookback time on ``grid`` for the rows of ``samples`` (kept rows only).
+
+    Parameters
+    ----------
+    samples : SampleSet
+        Kept rows with their weights (zero-weight rows are skipped).
+    model : ModelSettings
+    grid : (n_z,) redshifts.
+    n_population : int or None
+        How many kept samples these rows stand for (default: their number); stated on
+        the figure when it differs from the number of rows used.
+    max_samples, rng : size and seed of the weighted subsample drawn when needed.
+    """
+    rows = np.flatnonzero(samples.weights > 0)
+    weights = samples.weights[rows]
+    if rows.size > max_samples:
+        rows = rows[weighted_subsample(weights, max_samples, rng=rng)]
         weights = np.ones(rows.size)
-    else:
-        rows = kept
     arrays, _ = parameter_arrays(samples.take(rows), model)
     background = make_background(
         **arrays, t_cmb=model.t_cmb, n_massive=model.n_massive, radiation=model.radiation
     )
     history = expansion_history(background, grid)
+    usable = history.exclusion == 0
     return RedshiftBand(
         redshifts=np.asarray(grid, dtype=float),
-        cosmic_time_gyr=history.cosmic_time_gyr,
-        lookback_gyr=history.lookback_gyr,
-        weights=weights,
-        n_population=int(kept.size),
+        cosmic_time_gyr=history.cosmic_time_gyr[usable],
+        lookback_gyr=history.lookback_gyr[usable],
+        weights=weights[usable],
+        n_population=int(n_population if n_population is not None else samples.n_samples),
     )

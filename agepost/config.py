@@ -19,7 +19,8 @@ Layout of a configuration (paths are relative to the configuration file)::
 
     [output]
     folder = "results/demo"
-    figures = ["corner"]
+    figures = ["corner", "age_redshift", "marginals"]   # the default: all
+    report = true                                       # report.html
 """
 
 from __future__ import annotations
@@ -40,8 +41,9 @@ from agepost.physics.background import DEFAULTS
 SECTIONS = ("chain", "model", "quantities", "output")
 _MODEL_KEYS = ("radiation", "t_cmb", "n_massive", "assume")
 _QUANTITY_KEYS = ("redshifts", "levels")
-_OUTPUT_KEYS = ("folder", "figures")
-FIGURES = ("corner",)
+_OUTPUT_KEYS = ("folder", "figures", "report")
+#: Figure groups (see agepost.report.run_figures); all are drawn unless [output] figures says.
+FIGURES = ("corner", "age_redshift", "marginals")
 _ASSUMABLE = {"Omega_k": "omega_k", "w0": "w0", "wa": "wa", "m_nu": "m_nu", "N_eff": "n_eff"}
 
 
@@ -60,6 +62,7 @@ class RunSettings:
     levels: tuple[float, ...] = (0.68, 0.95)
     output: Path = Path("agepost-output")
     figures: tuple[str, ...] = FIGURES
+    report: bool = True
     force: bool = False
     config_file: Path | None = None
     sources: dict[str, str] = dataclasses.field(default_factory=dict)
@@ -121,6 +124,7 @@ def settings_from_config(path: str | Path) -> RunSettings:
         levels=_levels(quantities.get("levels", (0.68, 0.95)), where=f"{path} [quantities]"),
         output=Path(os.path.normpath(base / folder)),
         figures=figures,
+        report=_boolean(output.get("report", True), f"{path} [output] report"),
         config_file=path.resolve(),
         sources=sources,
     )
@@ -162,6 +166,12 @@ def _levels(values: Any, *, where: str) -> tuple[float, ...]:
     if bad:
         raise ConfigError(f"{where}: credible level {bad[0]} must lie strictly between 0 and 1")
     return levels
+
+
+def _boolean(value: Any, where: str) -> bool:
+    if not isinstance(value, bool):
+        raise ConfigError(f"{where} = {value!r} must be true or false")
+    return value
 
 
 def _number(value: Any, where: str) -> float:

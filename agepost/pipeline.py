@@ -26,10 +26,11 @@ import numpy as np
 import pandas as pd
 
 from agepost import __version__
-from agepost.chains import SampleSet, read_chains
+from agepost.bands import default_grid, redshift_band
+from agepost.chains import CANONICAL_PARAMETERS, SampleSet, read_chains
 from agepost.chains.reader import DEFAULT_CHUNK_ROWS, expand_paths
 from agepost.config import RunSettings
-from agepost.derive import DerivedSamples, derive, redshift_label
+from agepost.derive import DerivedSamples, derive, redshift_label, unique_redshifts
 from agepost.engines import Engine
 from agepost.engines.derive_pass import RunOverview, RunTally, load_samples, varying_parameters
 from agepost.engines.passes import GatherPlan, combine_gathered, gather_piece
@@ -58,6 +59,8 @@ LATEX_LABELS = {
 }
 #: Seed of the random subsample drawn for figures when ``plot_cap`` is set (recorded).
 PLOT_SUBSAMPLE_SEED = 20261202
+#: The one-page report of a run.
+REPORT_FILE = "report.html"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -206,18 +209,17 @@ def _in_memory(path: Path, tally: RunTally, settings: RunSettings) -> tuple[RunS
     result = summarise_run(samples, derived, levels=settings.levels)
     kept = np.flatnonzero(derived.kept & (derived.weights > 0))
     rows = _figure_rows(kept.size, settings.read.plot_cap)
-    columns = [c for c in samples.parameters.columns if c in result.parameters]
     frame = pd.concat(
         [
-            samples.parameters.loc[kept[rows], columns].reset_index(drop=True),
-            derived.quantities.loc[kept[rows], ["age"]].reset_index(drop=True),
+            samples.parameters.loc[kept[rows]].reset_index(drop=True),
+            derived.quantities.loc[kept[rows]].reset_index(drop=True),
         ],
         axis=1,
     )
     summary = RunSummary(
         result.overview, result.quantities, result.parameters, result.warnings, "in memory"
     )
-    return summary, (frame, derived.weights[kept[rows]])
+    return summary, FigureRows(frame, derived.weights[kept[rows]], dict(samples.fixed), kept.size)
 
 
 def _streamed(
@@ -235,17 +237,19 @@ def _streamed(
     summary = RunSummary(
         overview, quantities, summaries, run_warnings(quantities, overview), "streamed"
     )
-    if "corner" not in settings.figures:
+    if not settings.figures and not settings.report:
         return summary, None
     cap = settings.read.plot_cap or stream.figure_rows
     ranks = _figure_rows(tally.n_counted, cap)
-    columns = tuple(f"parameters/{p}" for p in parameters) + ("derived/age",)
+    columns = tuple(f"parameters/{p}" for p in tally.columns or []) + tuple(
+        f"derived/{q}" for q in tally.quantities
+    )
     plan = GatherPlan(str(path), columns, ranks)
     pieces = engine.map_ordered(gather_piece, tally.slices, shared=plan)
     gathered: dict[str, np.ndarray] = functools.reduce(combine_gathered, pieces)
     weights = gathered.pop("weight")
     frame = pd.DataFrame({name.split("/", 1)[1]: values for name, values in gathered.items()})
-    return summary, (frame, weights)
+    return summary, FigureRows(frame, weights, dict(tally.fixed), tally.n_counted)
 
 
 def _figure_rows(n_counted: int, cap: int | None) -> np.ndarray:
@@ -275,10 +279,9 @@ def _write_records(
     stage.write_json("summary.json", summary_record(summary, settings))
     stage.write_text("summary.csv", summary_csv(everything, units))
     stage.write_text("summary.tex", summary_latex(everything, units, labels))
-    if "corner" in settings.figures:
-        frame, weights = corner
-        _corner(frame, weights, settings, stage)
     record = provenance_record(summary, settings, command)
+    if corner is not None:
+        _figures_and_report(corner, summary, settings, stage, record)
     record["computation"] = {
         "engine": engine.describe(),
         "statistics": summary.method,
@@ -335,20 +338,107 @@ def latex_labels(redshifts: tuple[float, ...]) -> dict[str, str]:
 def output_names(settings: RunSettings) -> list[str]:
     """Every file a run writes, checked for clashes before anything is written."""
     names = ["summary.json", "summary.csv", "summary.tex", "provenance.json", SAMPLES_FILE]
-    if "corner" in settings.figures:
-        names += ["corner.png", "corner.pdf"]
+    stems = [g for g in ("corner", "age_redshift") if g in settings.figures]
+    if "marginals" in settings.figures:
+        stems += ["marginal_age"] + [
+            f"marginal_lookback_z{redshift_label(z)}" for z in unique_redshifts(settings.redshifts)
+        ]
+    names += [f"{stem}.{suffix}" for stem in stems for suffix in ("png", "pdf")]
+    if settings.report:
+        names.append(REPORT_FILE)
     return names
 
 
-def _corner(
-    frame: pd.DataFrame, weights: np.ndarray, settings: RunSettings, folder: OutputFolder
-) -> None:
-    from agepost.report.figures import corner_figure, save_figure  # matplotlib only when drawing
+@dataclasses.dataclass(frozen=True)
+class FigureRows:
+    """Kept rows drawn for figures: every parameter column and every derived quantity."""
 
-    labels = {"age": r"$t_0$ [Gyr]", "H0": r"$H_0$ [km/s/Mpc]", "m_nu": r"$\sum m_\nu$ [eV]"}
-    labels = {k: v for k, v in (LATEX_LABELS | labels).items() if k in frame.columns}
-    figure = corner_figure(frame, weights, levels=settings.levels, labels=labels)
-    save_figure(figure, folder, "corner")
+    frame: pd.DataFrame
+    weights: np.ndarray
+    fixed: dict[str, float]
+    n_population: int
+
+
+def _figures_and_report(
+    rows: FigureRows,
+    summary: RunSummary,
+    settings: RunSettings,
+    folder: OutputFolder,
+    provenance: dict[str, Any],
+) -> None:
+    """Draw the figure groups of ``settings.figures`` and write report.html."""
+    from agepost.report.figures import save_figure  # matplotlib only when drawing
+    from agepost.report.html import render_report
+    from agepost.report.run_figures import build_run_figures, figure_caption, png_bytes
+
+    parameter_columns = [c for c in rows.frame.columns if c in CANONICAL_PARAMETERS]
+    band = None
+    if "age_redshift" in settings.figures:
+        samples = SampleSet(
+            parameters=rows.frame[parameter_columns],
+            weights=rows.weights,
+            chain_id=np.zeros(len(rows.frame), dtype=np.int64),
+            fixed=rows.fixed,
+        )
+        band = redshift_band(
+            samples,
+            settings.model,
+            grid=default_grid(settings.redshifts),
+            n_population=rows.n_population,
+        )
+    figures = build_run_figures(
+        parameters=rows.frame[[c for c in parameter_columns if c in summary.parameters]],
+        quantities=rows.frame[list(summary.quantities)],
+        weights=rows.weights,
+        summaries=summary.quantities,
+        band=band,
+        levels=settings.levels,
+        groups=settings.figures,
+    )
+    for stem, figure in figures.items():
+        save_figure(figure, folder, stem)
+    if settings.report:
+        context = report_context(summary, settings, provenance)
+        context["captions"] = {stem: figure_caption(stem) for stem in figures}
+        pictures = {stem: png_bytes(figure) for stem, figure in figures.items()}
+        folder.write_text(REPORT_FILE, render_report(context, pictures))
+
+
+def report_context(
+    summary: RunSummary, settings: RunSettings, provenance: dict[str, Any]
+) -> dict[str, Any]:
+    """What the one-page report lists besides the figures."""
+    overview = summary.overview
+    inputs = {
+        f"chain file {i + 1}": f"{item['path']} (sha256 {item['sha256'][:12]}…)"
+        for i, item in enumerate(provenance["inputs"])
+    }
+    inputs |= {
+        "samples read": overview.n_samples,
+        "kept": overview.n_kept,
+        "chains": overview.n_chains,
+    }
+    model = {
+        "radiation": settings.model.radiation,
+        "T_cmb [K]": settings.model.t_cmb,
+        "massive neutrino species": settings.model.n_massive,
+    }
+    model |= {f"{name} (not in the chain)": value for name, value in overview.filled.items()}
+    units = {name: "Gyr" for name in summary.quantities} | {
+        name: PARAMETER_UNITS.get(name, "") for name in summary.parameters
+    }
+    return {
+        "title": f"agepost run: {settings.output.name}",
+        "subtitle": f"agepost {__version__}, {provenance['created_utc']}",
+        "inputs": inputs,
+        "model": model,
+        "summary": {
+            name: quantity_record(s, unit=units[name])
+            for name, s in (summary.quantities | summary.parameters).items()
+        },
+        "excluded": dict(overview.excluded),
+        "warnings": list(summary.warnings),
+    }
 
 
 def provenance_record(

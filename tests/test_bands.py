@@ -20,7 +20,7 @@ def test_small_run_uses_every_kept_sample_with_weights():
     rng = np.random.default_rng(0)
     samples = sample_set(50, rng)
     derived = derive(samples, [1.0])
-    band = redshift_band(samples, derived, ModelSettings(), grid=np.array([0.0, 1.0]))
+    band = redshift_band(samples, ModelSettings(), grid=np.array([0.0, 1.0]))
     assert not band.subsampled and band.weights.shape == (50,)
     # The grid point z = 1 must reproduce the run's own lookback time at z = 1 (same engine).
     assert_allclose(band.lookback_gyr[:, 1], derived.quantities["lookback_z1"], rtol=1e-12)
@@ -30,8 +30,7 @@ def test_small_run_uses_every_kept_sample_with_weights():
 def test_large_run_is_subsampled_by_weight():
     rng = np.random.default_rng(1)
     samples = sample_set(3000, rng)
-    derived = derive(samples)
-    band = redshift_band(samples, derived, ModelSettings(), grid=default_grid(()), max_samples=500)
+    band = redshift_band(samples, ModelSettings(), grid=default_grid(()), max_samples=500)
     assert band.subsampled and band.n_population == 3000 and band.weights.shape == (500,)
     assert band.cosmic_time_gyr.shape == (500, 80)
     # Cosmic time rises towards today along the grid (z decreasing is t increasing).

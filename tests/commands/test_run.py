@@ -39,8 +39,12 @@ def test_derive_writes_every_output_and_json(tmp_path, capsys):
     record = json.loads(capsys.readouterr().out)
     assert checksum(chain) == before  # the input is never modified
     for name in ("summary.json", "summary.csv", "summary.tex", "corner.png", "corner.pdf", "samples.h5",
-                 "provenance.json"):
+                 "provenance.json", "age_redshift.png", "age_redshift.pdf", "marginal_age.png",
+                 "marginal_lookback_z0.5.pdf", "marginal_lookback_z2.png", "report.html"):
         assert (out / name).stat().st_size > 0, name
+    report = (out / "report.html").read_text()
+    assert report.count("data:image/png;base64,") == 5  # corner, band, three marginals
+    assert "http" not in report.replace("http-equiv", "") and "<script" not in report
     assert json.loads((out / "summary.json").read_text()) == record
     assert set(record["quantities"]) == {"age", "lookback_z0.5", "cosmic_time_z0.5", "lookback_z2",
                                          "cosmic_time_z2"}

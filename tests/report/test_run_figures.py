@@ -28,7 +28,7 @@ def test_all_groups_and_png():
     summaries = {
         name: summarise(derived.quantities[name], derived.weights) for name in derived.quantities
     }
-    band = redshift_band(samples, derived, ModelSettings(), grid=np.linspace(0, 5, 12))
+    band = redshift_band(samples, ModelSettings(), grid=np.linspace(0, 5, 12))
     figures = build_run_figures(
         parameters=samples.parameters,
         quantities=derived.quantities,
