@@ -71,7 +71,7 @@ def test_an_interrupted_run_leaves_no_outputs_and_keeps_old_ones(tmp_path, capsy
     def interrupt(*args, **kwargs):
         raise KeyboardInterrupt  # as if Ctrl-C arrived while the figure was being drawn
 
-    monkeypatch.setattr(agepost.pipeline, "_corner", interrupt)
+    monkeypatch.setattr(agepost.pipeline, "_figures_and_report", interrupt)
     assert main(["derive", str(chain), "--out", str(out), "--quiet", "--force", "--z", "1"]) == 130
     assert "no partial outputs" in capsys.readouterr().err
     assert {name: (out / name).read_bytes() for name in leftovers(out)} == before  # untouched
