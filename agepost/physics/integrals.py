@@ -48,7 +48,7 @@ def panel_integrals(
     if distances:
         required[0, 1] = False
     if usable.size:
-        bg = background.take(usable)
+        bg = background if usable.size == n else background.take(usable)
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             shared, accepted = _shared_node_pass(bg, scale_factors, required, tail_tolerance)
             values[usable[accepted]] = shared[accepted]

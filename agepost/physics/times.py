@@ -28,6 +28,8 @@ from agepost.physics.integrals import panel_integrals
 DEFAULT_TAIL_TOLERANCE = 1e-7
 #: Samples handled together; bounds the working memory to a few hundred MB.
 CHUNK_SIZE = 8192
+#: Interquartile range of Omega_m above which samples are sorted before chunking.
+WIDE_OMEGA_M = 0.03
 
 
 @dataclasses.dataclass(frozen=True)
@@ -101,21 +103,30 @@ def expansion_history(
     position = np.searchsorted(scale_factors, 1.0 / (1.0 + z))
     cumulative_time = np.full((n, scale_factors.size), np.nan)
     distance_from_today = np.full((n, scale_factors.size), np.nan) if distances else None
-    exclusion = background.exclusion.copy()
-    # Chunks of similar Omega_m share their quadrature nodes well (see physics.integrals).
-    order = np.argsort(background.omega_m, kind="stable") if n > CHUNK_SIZE else np.arange(n)
+    exclusion = np.empty(n, dtype=np.int8)
+    # Chunks of similar Omega_m share their quadrature nodes well (see physics.integrals):
+    # a wide sample set is worked on sorted by Omega_m, and the results put back in order.
+    resort = n > CHUNK_SIZE and _spread(background.omega_m) > WIDE_OMEGA_M
+    order = np.argsort(background.omega_m) if resort else np.arange(n)
+    ordered = background.take(order) if resort else background
     for start in range(0, n, CHUNK_SIZE):
-        part = order[start : start + CHUNK_SIZE]
+        part = slice(start, min(start + CHUNK_SIZE, n))
         time_panels, distance_panels, codes = panel_integrals(
-            background.take(part), scale_factors, distances=distances, tail_tolerance=tail_tolerance
+            ordered.take(part), scale_factors, distances=distances, tail_tolerance=tail_tolerance
         )
         exclusion[part] = codes
         cumulative_time[part] = np.cumsum(time_panels, axis=1)
         if distance_from_today is not None and distance_panels is not None:
             from_today = np.cumsum(distance_panels[:, ::-1], axis=1)[:, ::-1]
             distance_from_today[part] = np.concatenate(
-                [from_today[:, 1:], np.zeros((part.size, 1))], axis=1
+                [from_today[:, 1:], np.zeros((from_today.shape[0], 1))], axis=1
             )
+    if resort:
+        restore = np.empty(n, dtype=np.intp)
+        restore[order] = np.arange(n)
+        exclusion, cumulative_time = exclusion[restore], cumulative_time[restore]
+        if distance_from_today is not None:
+            distance_from_today = distance_from_today[restore]
     lookback_units = _lookback_from_panels(cumulative_time)
     t_h = hubble_time_gyr(background.h0)
     excluded = exclusion != Exclusion.KEPT
@@ -136,6 +147,15 @@ def expansion_history(
         comoving_distance_mpc=comoving,
         exclusion=exclusion.astype(np.int8),
     )
+
+
+def _spread(values: NDArray) -> float:
+    """Width of the middle half of the finite values (0 if none)."""
+    finite = values[np.isfinite(values)]
+    if finite.size == 0:
+        return 0.0
+    low, high = np.percentile(finite, [25.0, 75.0])
+    return float(high - low)
 
 
 def _lookback_from_panels(cumulative_time: NDArray) -> NDArray:
