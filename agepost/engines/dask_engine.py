@@ -15,9 +15,10 @@ Faults
     ComputationError and, as every output is staged, nothing is written. No summary is
     ever made from part of the chain.
 Clusters
-    ``scheduler=None`` starts a local cluster (one single-threaded worker process per core)
-    and closes it at the end. With a scheduler address, the workers must see the chain
-    files and the output folder at the same paths and have agepost installed.
+    ``scheduler=None`` starts a local cluster (one single-threaded worker process per core,
+    without Dask's default ``MALLOC_TRIM_THRESHOLD_``, see :data:`TRIM_SETTING`) and closes
+    it at the end. With a scheduler address, the workers must see the chain files and the
+    output folder at the same paths and have agepost installed.
 """
 
 from __future__ import annotations
@@ -46,6 +47,10 @@ logger = logging.getLogger(__name__)
 
 #: Seconds allowed to reach a scheduler given with ``--scheduler``.
 CONNECT_TIMEOUT_S = 10
+#: Dask's default sets this allocator variable in every worker, which turns each large
+#: temporary array into fresh pages from the system: the derivation ran 2 to 2.5 times
+#: slower per core. Local clusters started here leave it unset.
+TRIM_SETTING = "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_"
 #: Rows of each file read by this process first, so reader warnings show here.
 PREFLIGHT_ROWS = 1000
 MISSING_DASK = (
@@ -60,19 +65,21 @@ class DaskEngine:
 
     def __init__(self, *, scheduler: str | None = None, workers: int | None = None) -> None:
         try:
+            import dask
             import dask.array  # noqa: F401 - checked here, used when reading HDF5
             import distributed
         except ImportError:
             raise ConfigError(MISSING_DASK) from None
         self._cluster = None
         if scheduler is None:
-            self._cluster = distributed.LocalCluster(
-                n_workers=workers or os.cpu_count() or 1,
-                threads_per_worker=1,
-                processes=True,
-                dashboard_address=":0",
-                silence_logs=logging.ERROR,
-            )
+            with dask.config.set({TRIM_SETTING: None}):
+                self._cluster = distributed.LocalCluster(
+                    n_workers=workers or os.cpu_count() or 1,
+                    threads_per_worker=1,
+                    processes=True,
+                    dashboard_address=":0",
+                    silence_logs=logging.ERROR,
+                )
             self.client = distributed.Client(self._cluster, set_as_default=False)
         else:
             self.client = _connect(distributed, scheduler)

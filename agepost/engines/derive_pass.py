@@ -13,7 +13,6 @@ from __future__ import annotations
 import dataclasses
 from collections import Counter
 from pathlib import Path
-from typing import Any
 
 import h5py
 import numpy as np
@@ -64,15 +63,15 @@ def chunk_result(samples: SampleSet, derived: DerivedSamples) -> ChunkResult:
         f"parameters/{name}": Moments.of(samples.parameters[name].to_numpy(float)[counted], w)
         for name in samples.parameters.columns
     }
-    ids, counts = np.unique(derived.chain_id[counted], return_counts=True)
-    codes, code_counts = np.unique(derived.exclusion, return_counts=True)
+    counts = np.bincount(derived.chain_id[counted])  # chain ids are small integers >= 0
+    codes = np.bincount(derived.exclusion.astype(np.intp))
     return ChunkResult(
         samples=samples,
         derived=derived,
         moments=moments,
-        chain_rows={int(i): int(c) for i, c in zip(ids, counts, strict=True)},
-        chain_ids=frozenset(int(i) for i in np.unique(derived.chain_id)),
-        reasons={int(c): int(n) for c, n in zip(codes, code_counts, strict=True)},
+        chain_rows={int(i): int(counts[i]) for i in np.flatnonzero(counts)},
+        chain_ids=frozenset(int(i) for i in np.flatnonzero(np.bincount(derived.chain_id))),
+        reasons={int(c): int(codes[c]) for c in np.flatnonzero(codes)},
     )
 
 
@@ -218,8 +217,3 @@ def load_samples(path: Path, tally: RunTally) -> tuple[SampleSet, DerivedSamples
 def varying_parameters(tally: RunTally) -> list[str]:
     """Parameters whose counted rows take more than one value (the ones summarised)."""
     return [n for n in tally.columns or [] if tally.moments[f"parameters/{n}"].spread]
-
-
-def describe(tally: RunTally) -> dict[str, Any]:
-    """Short record of the pass for logs and provenance."""
-    return {"rows": tally.n_rows, "chunks": len(tally.slices), "chains": len(tally.chain_ids)}

@@ -9,8 +9,8 @@ algorithm for computing sample variances"): with ``d = mean_b - mean_a`` and
 
 so the merged mean and ``M2 = sum w (x - mean)^2`` equal those of the joined chunks in
 exact arithmetic, whatever the order (in floating point they agree to rounding). Sums use
-numpy's pairwise summation, not BLAS, so a chunk gives the same bits in any process
-whatever its thread count. Kish's
+numpy's own loops (``sum``, ``einsum``), not BLAS, so a chunk gives the same bits in any
+process whatever its thread count. Kish's
 sums are kept scaled by the largest weight, as :func:`agepost.stats.quantiles.kish_ess`
 scales them, so very large weights do not overflow.
 """
@@ -64,19 +64,20 @@ class Moments:
         if x.size == 0:
             return cls()
         total = float(w.sum())
-        mean = float((w * x).sum() / total)
+        mean = float(np.einsum("i,i->", w, x) / total)
+        deviation = x - mean
         top = float(w.max())
         scaled = w / top
         return cls(
             n_rows=int(x.size),
             weight=total,
             mean=mean,
-            m2=float((w * (x - mean) ** 2).sum()),
+            m2=float(np.einsum("i,i,i->", w, deviation, deviation)),
             low=float(x.min()),
             high=float(x.max()),
             weight_max=top,
             scaled_sum=float(scaled.sum()),
-            scaled_sum_sq=float((scaled * scaled).sum()),
+            scaled_sum_sq=float(np.einsum("i,i->", scaled, scaled)),
         )
 
     def merge(self, other: Moments) -> Moments:

@@ -38,13 +38,14 @@ MODEL = ModelSettings(
 
 
 def start_cluster() -> distributed.LocalCluster:
-    return distributed.LocalCluster(
-        n_workers=2,
-        threads_per_worker=1,
-        processes=True,
-        dashboard_address=":0",
-        silence_logs=logging.ERROR,
-    )
+    with dask.config.set({dask_engine.TRIM_SETTING: None}):  # as the engine starts its own
+        return distributed.LocalCluster(
+            n_workers=2,
+            threads_per_worker=1,
+            processes=True,
+            dashboard_address=":0",
+            silence_logs=logging.ERROR,
+        )
 
 
 @pytest.fixture(scope="module")
