@@ -76,6 +76,7 @@ def settings_for(paths, out: Path, **changes) -> RunSettings:
         redshifts=(),
         output=out,
         figures=(),
+        report=False,
     )
     return dataclasses.replace(base, **changes)
 
@@ -120,54 +121,26 @@ def test_text_chain_through_dask_equals_local_and_batch_runs_share_the_cluster(
     tmp_path, cluster, capsys
 ):
     rng = np.random.default_rng(3)
-    chains = []
+    options = '[model]\nradiation = "none"\n[quantities]\nredshifts = [1]\n'
+    options += "[output]\nfigures = []\nreport = false\n"
     for k in range(3):
-        path = tmp_path / f"c{k}.txt"
         np.savetxt(
-            path,
+            tmp_path / f"c{k}.txt",
             np.column_stack([rng.normal(67, 0.5, 1000), rng.normal(0.3, 0.01, 1000)]),
             header="H0 Omega_m",
             comments="",
         )
-        chains.append(str(path))
-    common = ["--radiation", "none", "--quiet", "--json", "--z", "1"]
-    assert main(["derive", *chains, "--out", str(tmp_path / "local"), *common]) == 0
+        (tmp_path / f"one_{k}.toml").write_text(f'[chain]\nfiles = ["c{k}.txt"]\n' + options)
+    (tmp_path / "all.toml").write_text('[chain]\nfiles = ["c*.txt"]\n' + options)
+    dask_flags = ["--engine", "dask", "--scheduler", cluster.scheduler_address]
+    run = ["run", str(tmp_path / "all.toml"), "--quiet", "--json"]
+    assert main([*run, "--out", str(tmp_path / "local")]) == 0
     local = capsys.readouterr().out
-    assert (
-        main(
-            [
-                "derive",
-                *chains,
-                "--out",
-                str(tmp_path / "dask"),
-                *common,
-                "--engine",
-                "dask",
-                "--scheduler",
-                cluster.scheduler_address,
-            ]
-        )
-        == 0
-    )
-    assert capsys.readouterr().out == local
-    code = main(
-        [
-            "derive",
-            *chains,
-            "--batch",
-            "--out",
-            str(tmp_path / "batch"),
-            *common,
-            "--engine",
-            "dask",
-            "--scheduler",
-            cluster.scheduler_address,
-            "--jobs",
-            "3",
-        ]
-    )
-    assert code == 0
-    assert all((tmp_path / "batch" / f"c{k}" / "summary.json").exists() for k in range(3))
+    assert main([*run, "--out", str(tmp_path / "dask"), *dask_flags]) == 0
+    assert capsys.readouterr().out == local  # blocks read here, derived on the workers
+    batch = ["run", str(tmp_path / "one_*.toml"), "--out", str(tmp_path / "batch"), "--quiet"]
+    assert main([*batch, *dask_flags, "--jobs", "3"]) == 0
+    assert all((tmp_path / "batch" / f"one_{k}" / "summary.json").exists() for k in range(3))
 
 
 def _kill_a_busy_worker(engine_client) -> None:

@@ -53,6 +53,7 @@ def run(paths, folder, stream, *, redshifts=(1.0,), chunk_rows=20_000, figures=(
         redshifts=redshifts,
         output=folder,
         figures=figures,
+        report=False,
     )
     with LocalEngine() as engine:
         summary = run_to_folder(settings, engine, stream=stream, chunk_rows=chunk_rows)
