@@ -88,7 +88,7 @@ def settings_from_config(path: str | Path) -> RunSettings:
     path = Path(path)
     document = load_config(path)
     base = path.resolve().parent
-    _check_keys(document, SECTIONS, f"{path}")
+    check_keys(document, SECTIONS, f"{path}")
     chain = dict(document.get("chain", {}))
     files = chain.pop("files", None)
     read = ReadOptions.from_table(chain, where=f"{path} [chain]")
@@ -100,9 +100,9 @@ def settings_from_config(path: str | Path) -> RunSettings:
         read = dataclasses.replace(read, names_file=base / read.names_file)
     model = model_from_table(document.get("model", {}), where=f"{path} [model]")
     quantities = document.get("quantities", {})
-    _check_keys(quantities, _QUANTITY_KEYS, f"{path} [quantities]")
+    check_keys(quantities, _QUANTITY_KEYS, f"{path} [quantities]")
     output = document.get("output", {})
-    _check_keys(output, _OUTPUT_KEYS, f"{path} [output]")
+    check_keys(output, _OUTPUT_KEYS, f"{path} [output]")
     figures = tuple(output.get("figures", FIGURES))
     unknown = [f for f in figures if f not in FIGURES]
     if unknown:
@@ -132,17 +132,17 @@ def settings_from_config(path: str | Path) -> RunSettings:
 
 def model_from_table(table: Mapping[str, Any], *, where: str) -> ModelSettings:
     """Validate a ``[model]`` table into :class:`~agepost.derive.ModelSettings`."""
-    _check_keys(table, _MODEL_KEYS, where)
+    check_keys(table, _MODEL_KEYS, where)
     assume = dict(table.get("assume", {}))
-    _check_keys(assume, tuple(_ASSUMABLE), f"{where} assume")
+    check_keys(assume, tuple(_ASSUMABLE), f"{where} assume")
     defaults = {k: DEFAULTS[k] for k in _ASSUMABLE.values()}
     for name, value in assume.items():
-        defaults[_ASSUMABLE[name]] = _number(value, f"{where} assume.{name}")
+        defaults[_ASSUMABLE[name]] = number_value(value, f"{where} assume.{name}")
     try:
         return ModelSettings(
             radiation=str(table.get("radiation", "full")),
             n_massive=int(table.get("n_massive", DEFAULTS["n_massive"])),
-            t_cmb=_number(table.get("t_cmb", DEFAULTS["t_cmb"]), f"{where} t_cmb"),
+            t_cmb=number_value(table.get("t_cmb", DEFAULTS["t_cmb"]), f"{where} t_cmb"),
             defaults=defaults,
         )
     except ConfigError as error:
@@ -153,7 +153,7 @@ def _redshifts(values: Any, *, where: str) -> tuple[float, ...]:
     if not isinstance(values, list | tuple):
         raise ConfigError(f"{where}: redshifts must be a list of numbers, e.g. [0.5, 1, 2]")
     try:
-        return unique_redshifts([_number(v, f"{where} redshifts") for v in values])
+        return unique_redshifts([number_value(v, f"{where} redshifts") for v in values])
     except ConfigError as error:
         raise ConfigError(f"{where}: {error.message}") from None
 
@@ -161,7 +161,7 @@ def _redshifts(values: Any, *, where: str) -> tuple[float, ...]:
 def _levels(values: Any, *, where: str) -> tuple[float, ...]:
     if not isinstance(values, list | tuple) or not values:
         raise ConfigError(f"{where}: levels must be a non-empty list such as [0.68, 0.95]")
-    levels = tuple(_number(v, f"{where} levels") for v in values)
+    levels = tuple(number_value(v, f"{where} levels") for v in values)
     bad = [v for v in levels if not 0 < v < 1]
     if bad:
         raise ConfigError(f"{where}: credible level {bad[0]} must lie strictly between 0 and 1")
@@ -174,13 +174,15 @@ def _boolean(value: Any, where: str) -> bool:
     return value
 
 
-def _number(value: Any, where: str) -> float:
+def number_value(value: Any, where: str) -> float:
+    """A TOML number as float; anything else (booleans included) is a ConfigError."""
     if isinstance(value, bool) or not isinstance(value, int | float):
         raise ConfigError(f"{where} = {value!r} must be a number")
     return float(value)
 
 
-def _check_keys(table: Any, allowed: tuple[str, ...], where: str) -> None:
+def check_keys(table: Any, allowed: tuple[str, ...], where: str) -> None:
+    """ConfigError naming the nearest allowed key when ``table`` has an unknown one."""
     if not isinstance(table, Mapping):
         raise ConfigError(f"{where} must be a table of key = value pairs")
     for key in table:

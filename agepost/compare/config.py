@@ -16,13 +16,12 @@ Command-line flags override the configuration; keys and their types are listed i
 
 from __future__ import annotations
 
-import difflib
 import os
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
-from agepost.config import load_config
+from agepost.config import check_keys, load_config, number_value
 from agepost.errors import ConfigError
 
 
@@ -30,12 +29,6 @@ def _text(value: Any, where: str) -> str:
     if not isinstance(value, str) or not value.strip():
         raise ConfigError(f"{where} = {value!r} must be a non-empty string")
     return value
-
-
-def _number(value: Any, where: str) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        raise ConfigError(f"{where} = {value!r} must be a number")
-    return float(value)
 
 
 def _whole(value: Any, where: str) -> int:
@@ -47,7 +40,7 @@ def _whole(value: Any, where: str) -> int:
 def _numbers(value: Any, where: str) -> list[float]:
     if not isinstance(value, list):
         raise ConfigError(f"{where} must be a list of numbers, e.g. [0.68, 0.95]")
-    return [_number(v, where) for v in value]
+    return [number_value(v, where) for v in value]
 
 
 def _texts(value: Any, where: str) -> list[str]:
@@ -60,7 +53,7 @@ def _burn_in(value: Any, where: str) -> float | int:
     return (
         _whole(value, where)
         if isinstance(value, int) and not isinstance(value, bool)
-        else _number(value, where)
+        else number_value(value, where)
     )
 
 
@@ -76,7 +69,7 @@ KEYS: dict[str, dict[str, Checker]] = {
         "draws": _whole,
         "seed": _whole,
         "band_samples": _whole,
-        "z_max": _number,
+        "z_max": number_value,
         "z": _numbers,
         "burn_in": _burn_in,
     },
@@ -86,15 +79,15 @@ KEYS: dict[str, dict[str, Checker]] = {
         "levels": _numbers,
         "seed": _whole,
         "band_samples": _whole,
-        "z_max": _number,
+        "z_max": number_value,
         "burn_in": _burn_in,
     },
     "reweight": {
         "run": _text,
         "kind": _text,
-        "age_gyr": _number,
-        "age_err_gyr": _number,
-        "ess_floor": _number,
+        "age_gyr": number_value,
+        "age_err_gyr": number_value,
+        "ess_floor": number_value,
         "levels": _numbers,
         "z": _numbers,
         "burn_in": _burn_in,
@@ -109,12 +102,12 @@ def read_command_config(path: str | Path, command: str) -> dict[str, Any]:
     """
     path = Path(path)
     document = load_config(path)
-    _check_keys(document, (command, "output"), str(path))
+    check_keys(document, (command, "output"), str(path))
     table = document.get(command, {})
     output = document.get("output", {})
     allowed = KEYS[command]
-    _check_keys(table, tuple(allowed), f"{path} [{command}]")
-    _check_keys(output, ("folder",), f"{path} [output]")
+    check_keys(table, tuple(allowed), f"{path} [{command}]")
+    check_keys(output, ("folder",), f"{path} [output]")
     base = path.resolve().parent
     values = {key: allowed[key](value, f"{path} [{command}] {key}") for key, value in table.items()}
     for key in PATH_KEYS:
@@ -129,16 +122,6 @@ def _resolve(value: str | list[str], base: Path) -> str | list[str]:
     if isinstance(value, list):
         return [os.path.normpath(base / v) for v in value]
     return os.path.normpath(base / value)
-
-
-def _check_keys(table: Any, allowed: tuple[str, ...], where: str) -> None:
-    if not isinstance(table, Mapping):
-        raise ConfigError(f"{where} must be a table of key = value pairs")
-    for key in table:
-        if key not in allowed:
-            near = difflib.get_close_matches(key, allowed, n=1)
-            hint = f"; did you mean {near[0]!r}?" if near else f"; allowed: {', '.join(allowed)}"
-            raise ConfigError(f"{where}: unknown key {key!r}{hint}")
 
 
 def pick(args: Any, config: Mapping[str, Any], key: str, default: Any) -> Any:
