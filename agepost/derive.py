@@ -119,7 +119,7 @@ def derive(
     samples: SampleSet, redshifts: Iterable[float] = (), *, model: ModelSettings | None = None
 ) -> DerivedSamples:
     """Age today, lookback and cosmic times at ``redshifts`` for every sample (Gyr)."""
-    return _concatenate(list(derive_chunks(_row_chunks(samples), redshifts, model=model)))
+    return concatenate_derived(list(derive_chunks(_row_chunks(samples), redshifts, model=model)))
 
 
 def derive_chunks(
@@ -157,8 +157,8 @@ def _row_chunks(samples: SampleSet) -> Iterator[SampleSet]:
         yield samples.take(slice(start, start + DERIVE_CHUNK_ROWS))
 
 
-def _concatenate(parts: list[DerivedSamples]) -> DerivedSamples:
-    """Join chunk results in order."""
+def concatenate_derived(parts: list[DerivedSamples]) -> DerivedSamples:
+    """Join chunk results (of one chain set, in order) into one."""
     first = parts[0]
     return DerivedSamples(
         quantities=pd.concat([p.quantities for p in parts], ignore_index=True),

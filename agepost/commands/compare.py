@@ -8,6 +8,7 @@ derived here with ``--z``, the model flags and ``--burn-in``.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import logging
 import sys
 from pathlib import Path
@@ -17,7 +18,12 @@ import numpy as np
 
 from agepost import __version__
 from agepost.chains import ReadOptions
-from agepost.commands.common import add_model_arguments, redshift_tokens
+from agepost.commands.common import (
+    add_engine_arguments,
+    add_model_arguments,
+    open_engine_from,
+    redshift_tokens,
+)
 from agepost.compare.config import pick, read_command_config
 from agepost.compare.records import comparison_csv, comparison_record
 from agepost.compare.runs import LoadedRun, load_runs
@@ -79,6 +85,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         "--z-max", type=float, help=f"top of the t(z) band grid (default {DEFAULT_BAND_Z_MAX:g})"
     )
     add_common_arguments(parser, command="compare")
+    add_engine_arguments(parser)
     parser.set_defaults(handler=run)
 
 
@@ -138,8 +145,14 @@ def load_inputs(
             logging.getLogger("agepost").info(
                 "--z applies to chain inputs; %s keeps the redshifts it was derived at", item
             )
+    engine = getattr(args, "opened_engine", None)
     return load_runs(
-        items, labels=labels, redshifts=[float(t) for t in tokens], model=model, read=read
+        items,
+        labels=labels,
+        redshifts=[float(t) for t in tokens],
+        model=model,
+        read=read,
+        engine=engine,
     )
 
 
@@ -187,7 +200,9 @@ def run(args: argparse.Namespace) -> int:
     )
     grid = redshift_grid(float(pick(args, config, "z_max", DEFAULT_BAND_Z_MAX)))
     folder = output_folder(args, config, OUTPUT_NAMES)
-    runs = load_inputs(items, args, config, labels=labels)
+    with contextlib.closing(open_engine_from(args)) as engine:
+        args.opened_engine = engine
+        runs = load_inputs(items, args, config, labels=labels)
     comparison = compare_runs(runs, levels=levels, n_draws=draws, seed=seed)
     bands = {
         r.label: time_bands(r, grid, size=band_samples, rng=np.random.default_rng([seed, 1, i]))

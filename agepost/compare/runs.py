@@ -17,6 +17,7 @@ import json
 import re
 from collections.abc import Sequence
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 
 import h5py
@@ -25,8 +26,8 @@ import pandas as pd
 from numpy.typing import NDArray
 
 from agepost.chains import CANONICAL_PARAMETERS, ReadOptions, read_chains
-from agepost.chains.reader import expand_paths
-from agepost.derive import ModelSettings, derive
+from agepost.chains.reader import DEFAULT_CHUNK_ROWS, concatenate, expand_paths
+from agepost.derive import ModelSettings, concatenate_derived, derive
 from agepost.errors import ConfigError, InputError
 from agepost.exclusions import Exclusion
 from agepost.physics.background import Background, make_background
@@ -113,10 +114,12 @@ def load_runs(
     redshifts: Sequence[float] = (),
     model: ModelSettings | None = None,
     read: ReadOptions | None = None,
+    engine: Any | None = None,
 ) -> list[LoadedRun]:
     """Load each item (run folder, chain file or quoted glob) with a unique label.
 
-    ``redshifts``, ``model`` and ``read`` apply to chain inputs only; run folders carry
+    ``redshifts``, ``model``, ``read`` and ``engine`` (an :mod:`agepost.engines` engine
+    that derives chain inputs chunk by chunk) apply to chain inputs only; run folders carry
     their own.
     """
     if labels is not None and len(labels) != len(items):
@@ -135,7 +138,7 @@ def load_runs(
             )
         seen[name] = str(item)
     return [
-        load_run(item, label=name, redshifts=redshifts, model=model, read=read)
+        load_run(item, label=name, redshifts=redshifts, model=model, read=read, engine=engine)
         for name, item in zip(names, items, strict=True)
     ]
 
@@ -147,14 +150,26 @@ def load_run(
     redshifts: Sequence[float] = (),
     model: ModelSettings | None = None,
     read: ReadOptions | None = None,
+    engine: Any | None = None,
 ) -> LoadedRun:
     """One run folder (has ``samples.h5``) or chain file(s) (derived at ``redshifts``)."""
     label = label or default_label(item)
     if Path(item).is_dir():
         return _load_folder(Path(item), label)
-    samples = read_chains(str(item), read or ReadOptions())
     model = model or ModelSettings()
-    derived = derive(samples, redshifts, model=model)
+    if engine is None:
+        samples = read_chains(str(item), read or ReadOptions())
+        derived = derive(samples, redshifts, model=model)
+    else:
+        job = SimpleNamespace(
+            chain_files=(str(item),),
+            read=read or ReadOptions(),
+            model=model,
+            redshifts=tuple(redshifts),
+        )
+        parts = list(engine.derived_chunks(job, chunk_rows=DEFAULT_CHUNK_ROWS))
+        samples = concatenate([p.samples for p in parts])
+        derived = concatenate_derived([p.derived for p in parts])
     keep = derived.kept & (derived.weights > 0)
     _require_rows(keep, str(item))
     defaults = dict(model.defaults) | {
