@@ -3,7 +3,7 @@
 :func:`run_to_folder` is what ``agepost run`` and ``agepost derive`` call. It streams the
 chain through an engine (:mod:`agepost.engines`) chunk by chunk, appending every derived
 chunk to ``samples.h5``, so memory stays bounded whatever the chain's length. A run of at
-most ``StreamSettings.in_memory_rows`` rows is then summarised in memory, exactly as
+most ``StreamSettings.in_memory_values`` values is then summarised in memory, exactly as
 :func:`agepost.stats.summary.summarise` does; a longer one by passes over ``samples.h5``
 (:mod:`agepost.engines.streamed`). Every output is staged and appears only when all are
 complete (:mod:`agepost.engines.staging`).
@@ -28,7 +28,7 @@ import pandas as pd
 from agepost import __version__
 from agepost.bands import default_grid, redshift_band
 from agepost.chains import CANONICAL_PARAMETERS, SampleSet, read_chains
-from agepost.chains.reader import DEFAULT_CHUNK_ROWS, expand_paths
+from agepost.chains.reader import expand_paths
 from agepost.config import RunSettings
 from agepost.derive import DerivedSamples, derive, redshift_label, unique_redshifts
 from agepost.engines import Engine
@@ -57,6 +57,9 @@ LATEX_LABELS = {
     "m_nu": r"$\sum m_\nu$",
     "N_eff": r"$N_\mathrm{eff}$",
 }
+#: Rows read and derived at once by :func:`run_to_folder` (about 0.3 GB of working memory
+#: with a dozen derived quantities).
+CHUNK_ROWS = 500_000
 #: Seed of the random subsample drawn for figures when ``plot_cap`` is set (recorded).
 PLOT_SUBSAMPLE_SEED = 20261202
 #: The one-page report of a run.
@@ -162,7 +165,7 @@ def run_to_folder(
     *,
     command: list[str] | None = None,
     stream: StreamSettings | None = None,
-    chunk_rows: int = DEFAULT_CHUNK_ROWS,
+    chunk_rows: int = CHUNK_ROWS,
     show_progress: bool = False,
 ) -> RunSummary:
     """Derive, summarise and write every output of one run into ``settings.output``.
@@ -177,7 +180,7 @@ def run_to_folder(
     command : list of str or None
         Command line recorded in the provenance.
     stream : StreamSettings or None
-        Memory budgets; the default summarises up to 2 million rows in memory.
+        Memory budgets; the default summarises up to 12 million values in memory.
     chunk_rows : int
         Rows read and derived at once.
     show_progress : bool
@@ -196,7 +199,8 @@ def run_to_folder(
         overview = tally.overview()
         for name, value in overview.filled.items():
             logger.info("%s is not in the chain: assumed %s for every sample", name, value)
-        if tally.n_rows <= stream.in_memory_rows:
+        columns = len(tally.columns or []) + len(tally.quantities)
+        if tally.n_rows * columns <= stream.in_memory_values:
             summary, corner = _in_memory(samples_path, tally, settings)
         else:
             summary, corner = _streamed(samples_path, tally, settings, engine, stream)

@@ -233,10 +233,11 @@ def unit_piece(unit: ChainUnit, plan: ChainPlan) -> dict[tuple[str, int], NDArra
                 for chain in unit.chains:
                     series[(quantity, chain)].append(x[counted.chain_id == chain])
     out = {}
-    for (quantity, chain), parts in series.items():
-        x = np.concatenate(parts)
-        indicators = [(x <= t).astype(np.float64) for t in plan.thresholds[quantity]]
-        out[(quantity, chain)] = np.array([integrated_time(s) for s in (x, *indicators)])
+    for key in list(series):
+        x = np.concatenate(series.pop(key))
+        taus = [integrated_time(x)]  # then each indicator, one at a time
+        taus += [integrated_time((x <= t).astype(np.float64)) for t in plan.thresholds[key[0]]]
+        out[key] = np.array(taus)
     return out
 
 

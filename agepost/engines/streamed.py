@@ -62,8 +62,10 @@ class StreamSettings:
 
     Attributes
     ----------
-    in_memory_rows : runs with at most this many rows are summarised in memory, exactly
-        as :func:`agepost.stats.summary.summarise` does.
+    in_memory_values : runs of at most this many values (rows times parameter columns
+        and derived quantities) are summarised in memory, exactly as
+        :func:`agepost.stats.summary.summarise` does (12 million: 2 million rows of 6
+        columns, or about 920,000 rows with 5 redshifts and 2 varying parameters).
     window_rows : rows collected for one quantile before its bins are zoomed instead.
     budget_rows : rows collected in one pass, over all quantities.
     chain_memory_rows : longest chain whose autocorrelation is computed in memory.
@@ -71,7 +73,7 @@ class StreamSettings:
     figure_rows : rows drawn for the corner figure when ``plot_cap`` is not set.
     """
 
-    in_memory_rows: int = 2_000_000
+    in_memory_values: int = 12_000_000
     window_rows: int = 1_000_000
     budget_rows: int = 8_000_000
     chain_memory_rows: int = 2_000_000

@@ -84,7 +84,7 @@ def settings_for(paths, out: Path, **changes) -> RunSettings:
 @pytest.mark.slow
 def test_local_and_dask_agree_on_a_multi_million_row_chain(tmp_path, cluster):
     paths = [write_hdf5_chain(tmp_path / f"big_{k}.h5", 1_000_000, seed=k) for k in range(2)]
-    stream = StreamSettings(in_memory_rows=0, chain_memory_rows=100_000)
+    stream = StreamSettings(in_memory_values=0, chain_memory_rows=100_000)
     records = {}
     for name, scheduler in (("local", None), ("dask", cluster.scheduler_address)):
         settings = settings_for(paths, tmp_path / name)

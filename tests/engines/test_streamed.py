@@ -89,7 +89,7 @@ def test_streamed_summaries_equal_the_in_memory_ones(tmp_path):
     streamed_summary, streamed = run(
         paths,
         tmp_path / "streamed",
-        StreamSettings(in_memory_rows=0, window_rows=5_000, budget_rows=40_000),
+        StreamSettings(in_memory_values=0, window_rows=5_000, budget_rows=40_000),
     )
     assert (exact_summary.method, streamed_summary.method) == ("in memory", "streamed")
     assert exact["n_excluded"] > 0 and exact["excluded"] == {"no_big_bang": exact["n_excluded"]}
@@ -110,7 +110,7 @@ def test_long_chains_use_batch_means_and_stay_close(tmp_path):
     _, streamed = run(
         paths,
         tmp_path / "streamed",
-        StreamSettings(in_memory_rows=0, chain_memory_rows=10_000),
+        StreamSettings(in_memory_values=0, chain_memory_rows=10_000),
         redshifts=(),
     )
     age, age_streamed = exact["quantities"]["age"], streamed["quantities"]["age"]
@@ -136,7 +136,7 @@ def test_a_constant_quantity_is_summarised_like_in_memory(tmp_path):
     _, streamed = run(
         [str(path)],
         tmp_path / "streamed",
-        StreamSettings(in_memory_rows=0),
+        StreamSettings(in_memory_values=0),
         chunk_rows=700,
         figures=(),
     )
@@ -144,7 +144,7 @@ def test_a_constant_quantity_is_summarised_like_in_memory(tmp_path):
     assert any("zero spread" in w for w in streamed["warnings"])
 
 
-@pytest.mark.parametrize("stream", [StreamSettings(), StreamSettings(in_memory_rows=0)])
+@pytest.mark.parametrize("stream", [StreamSettings(), StreamSettings(in_memory_values=0)])
 def test_reader_notes_and_counts_match_the_whole_file_reader(tmp_path, stream):
     paths = write_chains(tmp_path, 5_000, n_chains=2)
     summary, record = run(paths, tmp_path / "out", stream, chunk_rows=1_500)
