@@ -342,7 +342,7 @@ def latex_labels(redshifts: tuple[float, ...]) -> dict[str, str]:
 def output_names(settings: RunSettings) -> list[str]:
     """Every file a run writes, checked for clashes before anything is written."""
     names = ["summary.json", "summary.csv", "summary.tex", "provenance.json", SAMPLES_FILE]
-    stems = [g for g in ("corner", "age_redshift") if g in settings.figures]
+    stems: list[str] = [g for g in ("corner", "age_redshift") if g in settings.figures]
     if "marginals" in settings.figures:
         stems += ["marginal_age"] + [
             f"marginal_lookback_z{redshift_label(z)}" for z in unique_redshifts(settings.redshifts)
@@ -413,7 +413,7 @@ def report_context(
 ) -> dict[str, Any]:
     """What the one-page report lists besides the figures."""
     overview = summary.overview
-    inputs = {
+    inputs: dict[str, Any] = {
         f"chain file {i + 1}": f"{item['path']} (sha256 {item['sha256'][:12]}…)"
         for i, item in enumerate(provenance["inputs"])
     }
